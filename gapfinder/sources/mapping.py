@@ -1,0 +1,73 @@
+"""Column mapping: which source column feeds each canonical column."""
+
+from __future__ import annotations
+
+import tomllib
+from collections.abc import Iterable
+from pathlib import Path
+
+from gapfinder.errors import ConfigError
+
+__all__ = ["CANONICAL_COLUMNS", "REQUIRED_COLUMNS", "load_config_columns", "parse_map_options"]
+
+CANONICAL_COLUMNS: tuple[str, ...] = (
+    "user_id",
+    "session_id",
+    "ts",
+    "event",
+    "app_version",
+    "platform",
+    "outcome",
+)
+REQUIRED_COLUMNS: tuple[str, ...] = ("user_id", "ts", "event")
+
+
+def _check_canonical(name: str, where: str) -> None:
+    if name not in CANONICAL_COLUMNS:
+        raise ConfigError(
+            f"{where}: {name!r} is not a canonical column; use one of {', '.join(CANONICAL_COLUMNS)}"
+        )
+
+
+def parse_map_options(items: Iterable[str]) -> dict[str, str]:
+    """Parse repeated ``--map canonical=source`` options into a dictionary.
+
+    Examples
+    --------
+    >>> parse_map_options(["user_id=member", "ts=occurred_at"])
+    {'user_id': 'member', 'ts': 'occurred_at'}
+    """
+    mapping: dict[str, str] = {}
+    for item in items:
+        canonical, sep, source = item.partition("=")
+        canonical, source = canonical.strip(), source.strip()
+        if not sep or not canonical or not source:
+            raise ConfigError(
+                f"--map {item!r}: write canonical=source, for example --map user_id=member"
+            )
+        _check_canonical(canonical, f"--map {item!r}")
+        if canonical in mapping and mapping[canonical] != source:
+            raise ConfigError(f"--map maps {canonical!r} twice ({mapping[canonical]!r}, {source!r})")
+        mapping[canonical] = source
+    return mapping
+
+
+def load_config_columns(path: str | Path) -> dict[str, str]:
+    """The ``[columns]`` table of a gapfinder.toml file (canonical name = source column)."""
+    config = Path(path)
+    try:
+        data = tomllib.loads(config.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise ConfigError(f"{config}: no such configuration file") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"{config}: not valid TOML ({exc})") from None
+    columns = data.get("columns", {})
+    if not isinstance(columns, dict):
+        raise ConfigError(f"{config}: [columns] must be a table of canonical = \"source\" pairs")
+    mapping: dict[str, str] = {}
+    for canonical, source in columns.items():
+        _check_canonical(canonical, f"{config} [columns]")
+        if not isinstance(source, str) or not source.strip():
+            raise ConfigError(f"{config} [columns]: {canonical} must name a source column as a string")
+        mapping[canonical] = source.strip()
+    return mapping

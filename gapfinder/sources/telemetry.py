@@ -1,0 +1,213 @@
+"""Map a telemetry source onto canonical columns and decide how its timestamps are read."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import duckdb
+from duckdb import CaseExpression, ColumnExpression, ConstantExpression, FunctionExpression
+from duckdb import sqltypes as T
+
+from gapfinder.errors import ConfigError, InputError
+from gapfinder.sources.formats import SourceFiles, open_relation, resolve_files
+from gapfinder.sources.mapping import CANONICAL_COLUMNS, REQUIRED_COLUMNS
+
+__all__ = ["EPOCH_UNITS", "OpenedSource", "TimestampReading", "open_telemetry"]
+
+# Micro-seconds per unit, for integer or decimal epoch timestamps.
+EPOCH_UNITS: dict[str, float] = {"s": 1e6, "ms": 1e3, "us": 1.0, "ns": 1e-3}
+_TEXT_TYPES = {"VARCHAR"}
+_NAIVE_TYPES = {"TIMESTAMP", "TIMESTAMP_NS", "TIMESTAMP_MS", "TIMESTAMP_S", "DATE", "TIMESTAMP WITH TIME ZONE"}
+_NUMERIC_TYPES = {
+    "TINYINT", "SMALLINT", "INTEGER", "BIGINT", "HUGEINT", "UTINYINT", "USMALLINT",
+    "UINTEGER", "UBIGINT", "FLOAT", "DOUBLE",
+}
+# Epoch values at or above these bounds are read in the next finer unit (detection by size):
+# 1e11 s is the year 5138, so anything larger is not seconds, and so on down to nanoseconds.
+_EPOCH_DETECTION = ((1e11, "s"), (1e14, "ms"), (1e17, "us"))
+_ZONE_SUFFIX = r"(Z|z|[+-][0-9]{2}(:?[0-9]{2})?)$"
+
+
+@dataclass(frozen=True)
+class TimestampReading:
+    """How the timestamp column was interpreted, stated back to the user."""
+
+    source_type: str
+    kind: str  # "timestamptz", "timestamp", "text", "epoch"
+    unit: str | None = None
+    unit_detected: bool = False
+    text_format: str | None = None
+
+    def describe(self) -> str:
+        if self.kind == "epoch":
+            how = "detected from the values' size" if self.unit_detected else "set by --ts-unit"
+            return f"epoch {self.unit} ({self.source_type}; unit {how})"
+        if self.kind == "text":
+            fmt = f"format {self.text_format!r}" if self.text_format else "ISO-8601"
+            return f"text timestamps, {fmt}; those without a zone taken as UTC"
+        if self.kind == "timestamp":
+            return f"{self.source_type} without time zone, taken as UTC"
+        return f"{self.source_type}, converted to UTC"
+
+
+@dataclass
+class OpenedSource:
+    """A telemetry input mapped onto canonical columns (exposed as the view ``mapped_source``)."""
+
+    files: SourceFiles
+    mapping: dict[str, str]
+    source_columns: list[str]
+    timestamp: TimestampReading
+    has_session_column: bool
+    segment_columns: list[str] = field(default_factory=list)
+
+    @property
+    def file_count(self) -> int:
+        return len(self.files.files)
+
+
+def _timestamp_expression(
+    con: duckdb.DuckDBPyConnection,
+    relation: duckdb.DuckDBPyRelation,
+    column: str,
+    type_name: str,
+    *,
+    ts_unit: str | None,
+    ts_format: str | None,
+    label: str,
+) -> tuple[duckdb.Expression, duckdb.Expression, TimestampReading]:
+    """(converted TIMESTAMPTZ expression, is-naive expression, reading) for the ts column."""
+    col = ColumnExpression(column)
+    base = type_name.split("(")[0].upper()
+    if ts_unit is not None and ts_unit not in EPOCH_UNITS:
+        raise ConfigError(f"--ts-unit {ts_unit!r}: use one of {', '.join(EPOCH_UNITS)}")
+    if base == "TIMESTAMP WITH TIME ZONE":
+        return col, ConstantExpression(False), TimestampReading(type_name, "timestamptz")
+    if base in _NAIVE_TYPES:
+        return (
+            col.cast(T.TIMESTAMP_TZ),
+            ConstantExpression(True),
+            TimestampReading(type_name, "timestamp"),
+        )
+    is_numeric_text = False
+    if base in _TEXT_TYPES and ts_format is None:
+        sample = relation.filter(col.isnotnull()).select(col.alias("v")).limit(1000)
+        values = [r[0] for r in sample.fetchall()]
+        is_numeric_text = bool(values) and all(
+            v.strip().replace(".", "", 1).isdigit() for v in values if isinstance(v, str)
+        )
+    if base in _NUMERIC_TYPES or is_numeric_text or (ts_unit and base in _TEXT_TYPES):
+        number = col.try_cast(T.DOUBLE)
+        unit, detected = ts_unit, False
+        if unit is None:
+            median = relation.aggregate(
+                [FunctionExpression("median", FunctionExpression("abs", number))]
+            ).fetchall()
+            size = float(median[0][0]) if median and median[0][0] is not None else 0.0
+            unit = next((u for bound, u in _EPOCH_DETECTION if size < bound), "ns")
+            detected = True
+        micros = number * ConstantExpression(EPOCH_UNITS[unit])
+        # Outside about ±290,000 years make_timestamp overflows; such values are unparsable.
+        in_range = FunctionExpression("abs", micros) < ConstantExpression(9.2e18)
+        converted = (
+            CaseExpression(in_range, FunctionExpression("make_timestamp", micros.cast(T.BIGINT)))
+            .otherwise(ConstantExpression(None))
+            .cast(T.TIMESTAMP_TZ)
+        )
+        return (
+            converted,
+            ConstantExpression(False),
+            TimestampReading(type_name, "epoch", unit=unit, unit_detected=detected),
+        )
+    if base in _TEXT_TYPES:
+        if ts_format:
+            parsed = FunctionExpression("try_strptime", col, ConstantExpression(ts_format))
+            naive = ConstantExpression("%z" not in ts_format and "%Z" not in ts_format)
+            return (
+                parsed.cast(T.TIMESTAMP_TZ),
+                naive,
+                TimestampReading(type_name, "text", text_format=ts_format),
+            )
+        naive = FunctionExpression(
+            "regexp_matches", FunctionExpression("trim", col), ConstantExpression(_ZONE_SUFFIX)
+        )
+        return (
+            FunctionExpression("trim", col).try_cast(T.TIMESTAMP_TZ),
+            ~naive,
+            TimestampReading(type_name, "text"),
+        )
+    raise InputError(
+        f"{label}: timestamp column {column!r} has type {type_name}; gapfinder reads timestamps, "
+        "ISO-8601 text or epoch numbers"
+    )
+
+
+def open_telemetry(
+    con: duckdb.DuckDBPyConnection,
+    inputs: Sequence[str | os.PathLike[str]],
+    mapping: dict[str, str] | None = None,
+    *,
+    ts_unit: str | None = None,
+    ts_format: str | None = None,
+) -> OpenedSource:
+    """Create the temporary view ``mapped_source`` over the telemetry with canonical columns.
+
+    The view has ``user_id``, ``session_id``, ``event``, ``app_version``, ``platform`` and
+    ``outcome`` as text (NULL when not mapped), ``ts`` as TIMESTAMPTZ in UTC (NULL when the raw
+    value is missing or cannot be read), ``has_raw_ts`` and ``is_naive_ts``.
+    """
+    files = resolve_files(inputs)
+    relation = open_relation(con, files)
+    try:
+        source_columns = list(relation.columns)
+        source_types = [str(t) for t in relation.types]
+    except duckdb.Error as exc:
+        raise InputError(f"{files.label}: cannot be read ({str(exc).splitlines()[0]})") from None
+    types = dict(zip(source_columns, source_types, strict=True))
+    chosen = dict(mapping or {})
+    for canonical in CANONICAL_COLUMNS:
+        if canonical not in chosen and canonical in types:
+            chosen[canonical] = canonical
+    for canonical, source_name in chosen.items():
+        if source_name not in types:
+            raise InputError(
+                f"{files.label}: no column {source_name!r} for {canonical}; the columns are "
+                f"{', '.join(source_columns)}"
+            )
+    for canonical in REQUIRED_COLUMNS:
+        if canonical not in chosen:
+            raise InputError(
+                f"{files.label}: required column {canonical!r} is missing; the columns are "
+                f"{', '.join(source_columns)}. Map one with --map {canonical}=<column>"
+            )
+    ts_expr, naive_expr, reading = _timestamp_expression(
+        con,
+        relation,
+        chosen["ts"],
+        types[chosen["ts"]],
+        ts_unit=ts_unit,
+        ts_format=ts_format,
+        label=files.label,
+    )
+    projections: list[duckdb.Expression] = []
+    for canonical in CANONICAL_COLUMNS:
+        if canonical == "ts":
+            projections.append(ts_expr.alias("ts"))
+            projections.append(ColumnExpression(chosen["ts"]).isnotnull().alias("has_raw_ts"))
+            projections.append(naive_expr.alias("is_naive_ts"))
+        elif canonical in chosen:
+            projections.append(ColumnExpression(chosen[canonical]).cast(T.VARCHAR).alias(canonical))
+        else:
+            projections.append(ConstantExpression(None).cast(T.VARCHAR).alias(canonical))
+    # A registered relation is a temporary view: nothing pointing at the files is persisted.
+    con.register("mapped_source", relation.select(*projections))
+    return OpenedSource(
+        files=files,
+        mapping=chosen,
+        source_columns=source_columns,
+        timestamp=reading,
+        has_session_column="session_id" in chosen,
+        segment_columns=[c for c in ("app_version", "platform") if c in chosen],
+    )

@@ -1,0 +1,57 @@
+"""Loads the SQL files under queries/ and runs them with bound parameters.
+
+Each file holds one statement and opens with a comment saying what it returns and which
+``$parameters`` it binds. Values are always bound, never formatted into the text.
+"""
+
+from __future__ import annotations
+
+import functools
+from pathlib import Path
+from typing import Any
+
+import duckdb
+
+from gapfinder.errors import QueryError
+
+__all__ = ["load", "query_dir", "run", "fetch_dicts"]
+
+
+@functools.cache
+def query_dir() -> Path:
+    """The folder holding the .sql files: inside the wheel, or the source tree's queries/."""
+    packaged = Path(__file__).parent / "queries"
+    if packaged.is_dir():
+        return packaged
+    source_tree = Path(__file__).resolve().parent.parent / "queries"
+    if source_tree.is_dir():
+        return source_tree
+    raise QueryError("gapfinder's queries/ folder is missing: reinstall the package")
+
+
+@functools.cache
+def load(name: str) -> str:
+    """The text of ``queries/<name>.sql``."""
+    path = query_dir() / f"{name}.sql"
+    try:
+        return path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise QueryError(f"no query named {name!r} in {query_dir()}") from None
+
+
+def run(
+    con: duckdb.DuckDBPyConnection, name: str, /, **params: Any
+) -> duckdb.DuckDBPyConnection:
+    """Execute ``queries/<name>.sql`` with ``params`` bound to its ``$parameters``."""
+    try:
+        return con.execute(load(name), params or None)
+    except duckdb.Error as exc:
+        first_line = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise QueryError(f"query {name}.sql failed: {first_line}") from exc
+
+
+def fetch_dicts(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> list[dict[str, Any]]:
+    """Run a query and return its rows as dictionaries keyed by column name."""
+    cursor = run(con, name, **params)
+    columns = [d[0] for d in cursor.description or []]
+    return [dict(zip(columns, row, strict=True)) for row in cursor.fetchall()]

@@ -1,0 +1,258 @@
+"""The profile stage: read telemetry, sessionize it, count its paths and fit the usage model.
+
+This is what ``gapfinder profile`` runs. All of it is written to the workspace in one
+transaction; ``summarize_profile`` reads the summary back from the workspace at any time.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from collections.abc import Callable, Sequence
+from dataclasses import asdict, dataclass, field
+from datetime import datetime
+from pathlib import Path
+from typing import Any
+
+import duckdb
+import pyarrow as pa
+
+from gapfinder.errors import InputError
+from gapfinder.paths import (
+    DEFAULT_MAX_K,
+    build_paths,
+    feature_names,
+    list_features,
+    list_full_paths,
+    list_kpaths,
+)
+from gapfinder.privacy import DEFAULT_MIN_USERS
+from gapfinder.sessions import SessionOptions, build_sessions, count_source_rows
+from gapfinder.sources import open_telemetry
+from gapfinder.sql import fetch_dicts, run
+from gapfinder.usage_model import END, START, UsageModel
+from gapfinder.workspace import StageRecord, Workspace, open_for_stage
+
+__all__ = ["ProfileOptions", "load_usage_model", "profile_telemetry", "summarize_profile"]
+
+Progress = Callable[[str], None]
+
+
+@dataclass(frozen=True)
+class ProfileOptions:
+    """Everything ``profile`` can be told; the defaults suit most product telemetry."""
+
+    mapping: dict[str, str] = field(default_factory=dict)
+    ts_unit: str | None = None
+    ts_format: str | None = None
+    sessions: SessionOptions = field(default_factory=SessionOptions)
+    max_k: int = DEFAULT_MAX_K
+    include_automated: bool = False
+    pseudonymize_key: bytes | None = None
+    threads: int | None = None
+    memory_limit: str | None = None
+
+
+def _iso(value: Any) -> str | None:
+    return value.isoformat() if isinstance(value, datetime) else None
+
+
+def _fit_model(con: duckdb.DuckDBPyConnection) -> UsageModel:
+    names = feature_names(con)
+    edges = [
+        (r["source"], r["target"], r["occurrences"])
+        for r in fetch_dicts(con, "list_transition_counts", names=names)
+    ]
+    model = UsageModel.from_transitions(edges)
+    edge_rows = [
+        {"source": a, "target": b, "count": d["count"], "probability": d["probability"]}
+        for a, b, d in sorted(model.G.edges(data=True))
+    ]
+    edge_frame = pa.Table.from_pylist(
+        edge_rows,
+        schema=pa.schema(
+            [("source", pa.string()), ("target", pa.string()), ("count", pa.int64()), ("probability", pa.float64())]
+        ),
+    )
+    visit_frame = pa.Table.from_pylist(
+        [asdict(v) for v in model.feature_visits()],
+        schema=pa.schema(
+            [
+                ("event", pa.string()),
+                ("expected_visits", pa.float64()),
+                ("visit_probability", pa.float64()),
+                ("expected_sessions_to_first", pa.float64()),
+                ("long_run_share", pa.float64()),
+            ]
+        ),
+    )
+    con.register("usage_edges_frame", edge_frame)
+    con.register("feature_model_frame", visit_frame)
+    try:
+        run(con, "create_usage_edges")
+        run(con, "create_feature_model")
+    finally:
+        con.unregister("usage_edges_frame")
+        con.unregister("feature_model_frame")
+    return model
+
+
+def load_usage_model(con: duckdb.DuckDBPyConnection) -> UsageModel:
+    """The usage model as stored in the workspace (no refit)."""
+    rows = con.execute("SELECT source, target, count FROM usage_edges").fetchall()
+    return UsageModel.from_transitions((a, b, int(c)) for a, b, c in rows)
+
+
+def profile_telemetry(
+    inputs: Sequence[str | os.PathLike[str]],
+    workspace: str | os.PathLike[str],
+    options: ProfileOptions | None = None,
+    *,
+    progress: Progress | None = None,
+    top: int = 10,
+    min_users: int = DEFAULT_MIN_USERS,
+) -> dict[str, Any]:
+    """Profile telemetry into ``workspace`` and return the summary (see ``summarize_profile``).
+
+    Examples
+    --------
+    >>> summary = profile_telemetry(["sample_telemetry/field"], "ws.duckdb")  # doctest: +SKIP
+    >>> summary["sessions"]["count"]  # doctest: +SKIP
+    """
+    options = options or ProfileOptions()
+    say = progress or (lambda _message: None)
+    with open_for_stage(workspace, threads=options.threads, memory_limit=options.memory_limit) as ws:
+        record = StageRecord(
+            stage="profile",
+            inputs=[os.fspath(i) for i in inputs],
+            parameters={
+                "mapping": options.mapping,
+                "ts_unit": options.ts_unit,
+                "ts_format": options.ts_format,
+                "sessions": options.sessions.as_parameters(),
+                "max_k": options.max_k,
+                "include_automated": options.include_automated,
+                "pseudonymized": options.pseudonymize_key is not None,
+            },
+        )
+        say("reading telemetry")
+        source = open_telemetry(
+            ws.con, inputs, options.mapping, ts_unit=options.ts_unit, ts_format=options.ts_format
+        )
+        counts = count_source_rows(ws.con, options.sessions)
+        if counts.rows_read == 0:
+            raise InputError(f"{source.files.label}: no events in the input (0 rows)")
+        if counts.usable_rows - counts.noise_dropped <= 0:
+            reasons = ", ".join(f"{n} {r}" for r, n in counts.rejected.items()) or "all were noise"
+            raise InputError(f"{source.files.label}: none of {counts.rows_read} rows is usable ({reasons})")
+        reading = {
+            "label": source.files.label,
+            "format": source.files.format,
+            "file_count": source.file_count,
+            "mapping": source.mapping,
+            "timestamp": source.timestamp.describe(),
+            "naive_timestamps": counts.naive_timestamps,
+            "rows_read": counts.rows_read,
+            "usable_rows": counts.usable_rows,
+            "rejected": counts.rejected,
+            "noise_dropped": counts.noise_dropped,
+            "first_ts": _iso(counts.first_ts),
+            "last_ts": _iso(counts.last_ts),
+            "formed_by": (
+                f"the input's session column {source.mapping['session_id']!r}"
+                if source.has_session_column
+                else f"idle gaps longer than {options.sessions.idle_minutes:g} minutes"
+            ),
+            "segment_columns": source.segment_columns,
+            "pseudonymized": options.pseudonymize_key is not None,
+        }
+        with ws.stage(record) as con:
+            say("forming sessions")
+            build_sessions(
+                con,
+                options=options.sessions,
+                use_session_column=source.has_session_column,
+                pseudonymize_key=options.pseudonymize_key,
+            )
+            say("counting paths")
+            build_paths(con, max_k=options.max_k, include_automated=options.include_automated)
+            say("fitting the usage model")
+            _fit_model(con)
+            run(con, "upsert_meta", key="profile_reading", value=json.dumps(reading, sort_keys=True))
+            con.unregister("mapped_source")
+            summary = summarize_profile(ws, top=top, min_users=min_users)
+            record.row_counts = {
+                "rows_read": counts.rows_read,
+                "sessions": summary["sessions"]["count"],
+                "users": summary["sessions"]["users"],
+                "features": summary["features"]["count"],
+            }
+        return summary
+
+
+def summarize_profile(
+    ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_MIN_USERS
+) -> dict[str, Any]:
+    """The profile summary from the workspace: reading, sessions, features, paths, model, bots."""
+    ws.require("sessions", "kpaths", "usage_edges", hint="run `gapfinder profile TELEMETRY -w ...` first")
+    con = ws.con
+    meta = con.execute("SELECT value FROM meta WHERE key = 'profile_reading'").fetchone()
+    reading = json.loads(meta[0]) if meta else {}
+    stats = fetch_dicts(con, "summarize_sessions")[0]
+    names = feature_names(con)
+    features = list_features(con, min_users=min_users, limit=top)
+    transitions = list_kpaths(con, min_k=2, max_k=2, min_users=min_users, limit=top)
+    full_paths = list_full_paths(con, min_users=min_users, limit=top)
+    distinct_paths = con.execute("SELECT count(*) FROM full_paths").fetchone()
+    model = load_usage_model(con)
+    accounts = fetch_dicts(con, "list_automated_users", names=names)
+    return {
+        "workspace": str(ws.path),
+        "reading": reading,
+        "sessions": {
+            "count": stats["session_count"],
+            "users": stats["user_count"],
+            "events": stats["event_count"],
+            "formed_by": reading.get("formed_by"),
+            "length": {
+                "median": stats["length_median"],
+                "p95": stats["length_p95"],
+                "max": stats["length_max"],
+            },
+            "truncated": stats["truncated_count"],
+            "with_errors": stats["error_session_count"],
+        },
+        "features": {
+            "count": len([n for n in names if n not in (START, END)]),
+            "top": features.rows,
+            "suppressed": features.suppressed_count,
+        },
+        "transitions": {"top": transitions.rows, "suppressed": transitions.suppressed_count},
+        "full_paths": {
+            "distinct": int(distinct_paths[0]) if distinct_paths else 0,
+            "top": full_paths.rows,
+            "suppressed": full_paths.suppressed_count,
+        },
+        "usage_model": {
+            "expected_session_length": model.expected_session_length(),
+            "most_probable_paths": [
+                {"path": path, "probability": p} for path, p in model.most_probable_paths(5)
+            ],
+        },
+        "automated": {
+            "users": stats["automated_user_count"],
+            "sessions": stats["automated_session_count"],
+            "events": stats["automated_event_count"],
+            "accounts": accounts,
+        },
+        "privacy": {"min_users": min_users, "pseudonymized": bool(reading.get("pseudonymized"))},
+    }
+
+
+def summary_to_json(summary: dict[str, Any]) -> str:
+    """The summary as JSON text (stable key order)."""
+    return json.dumps(summary, indent=2, sort_keys=True, default=str)
+
+
+def workspace_path(value: str | os.PathLike[str]) -> Path:
+    return Path(value)

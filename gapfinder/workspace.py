@@ -1,0 +1,175 @@
+"""The workspace: one DuckDB file holding every stage's tables and a record of each run.
+
+A stage writes all of its tables inside one transaction and appends a row to ``runs``; if
+anything fails the transaction is rolled back, so the previous results stay intact. A workspace
+file that a failed first stage would leave empty is removed again.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import os
+import time
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+import duckdb
+
+from gapfinder import __version__
+from gapfinder.errors import ConfigError, GapfinderError, InputError
+from gapfinder.sql import run
+
+__all__ = ["DEFAULT_WORKSPACE", "SCHEMA_VERSION", "StageRecord", "Workspace", "connect_memory"]
+
+DEFAULT_WORKSPACE = "gapfinder.duckdb"
+SCHEMA_VERSION = 1
+
+
+def _configure(con: duckdb.DuckDBPyConnection, *, threads: int | None, memory_limit: str | None) -> None:
+    con.execute("SET TimeZone = 'UTC'")
+    if threads:
+        con.execute(f"SET threads = {int(threads)}")
+    if memory_limit:
+        # memory_limit takes a size literal; only digits and a unit are let through.
+        literal = memory_limit.strip().upper().replace(" ", "")
+        if not literal.rstrip("KMGTIB").isdigit():
+            raise ConfigError(f"--memory-limit {memory_limit!r}: give a size such as 4GB or 512MB")
+        con.execute("SET memory_limit = $limit", {"limit": literal})
+
+
+def connect_memory(*, threads: int | None = None) -> duckdb.DuckDBPyConnection:
+    """An in-memory DuckDB connection configured the way the workspace is (UTC, threads)."""
+    con = duckdb.connect(":memory:")
+    _configure(con, threads=threads, memory_limit=None)
+    return con
+
+
+@dataclass
+class StageRecord:
+    """What a stage reports into the ``runs`` table."""
+
+    stage: str
+    inputs: list[str] = field(default_factory=list)
+    parameters: dict[str, Any] = field(default_factory=dict)
+    row_counts: dict[str, int] = field(default_factory=dict)
+
+
+class Workspace:
+    """An open workspace file.
+
+    Parameters
+    ----------
+    path:
+        The DuckDB file; created when missing.
+    threads, memory_limit:
+        DuckDB settings for this process (defaults: all cores, DuckDB's own limit).
+    """
+
+    def __init__(
+        self,
+        path: str | os.PathLike[str] = DEFAULT_WORKSPACE,
+        *,
+        threads: int | None = None,
+        memory_limit: str | None = None,
+        read_only: bool = False,
+    ) -> None:
+        self.path = Path(path)
+        self.is_new = not self.path.exists()
+        if read_only and self.is_new:
+            raise InputError(
+                f"workspace {self.path} does not exist: run `gapfinder profile ... -w {self.path}` first"
+            )
+        if self.path.parent and not self.path.parent.exists():
+            raise ConfigError(f"workspace folder {self.path.parent} does not exist: create it first")
+        try:
+            self.con = duckdb.connect(str(self.path), read_only=read_only)
+        except duckdb.Error as exc:
+            raise InputError(
+                f"workspace {self.path} cannot be opened as a DuckDB file ({str(exc).splitlines()[0]}):"
+                " pass another --workspace"
+            ) from None
+        _configure(self.con, threads=threads, memory_limit=memory_limit)
+        spill = self.path.with_name(self.path.name + ".tmp")
+        self.con.execute("SET temp_directory = $dir", {"dir": str(spill)})
+        if not read_only:
+            self._migrate()
+
+    def _migrate(self) -> None:
+        run(self.con, "create_run_sequence")
+        run(self.con, "create_runs_table")
+        run(self.con, "create_meta_table")
+        run(self.con, "upsert_meta", key="schema_version", value=str(SCHEMA_VERSION))
+
+    def close(self) -> None:
+        self.con.close()
+
+    def __enter__(self) -> Workspace:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def has_table(self, name: str) -> bool:
+        return bool(run(self.con, "has_table", name=name).fetchone()[0])  # type: ignore[index]
+
+    def require(self, *tables: str, hint: str) -> None:
+        """Raise a clear error when a stage's inputs are not in the workspace yet."""
+        missing = [t for t in tables if not self.has_table(t)]
+        if missing:
+            raise InputError(f"workspace {self.path} has no {', '.join(missing)} table yet: {hint}")
+
+    @contextlib.contextmanager
+    def stage(self, record: StageRecord) -> Iterator[duckdb.DuckDBPyConnection]:
+        """Run a stage's writes in one transaction and record the run when they all succeed."""
+        started = datetime.now(UTC)
+        clock = time.perf_counter()
+        self.con.execute("BEGIN TRANSACTION")
+        try:
+            yield self.con
+            run(
+                self.con,
+                "insert_run",
+                stage=record.stage,
+                started_at=started,
+                finished_at=datetime.now(UTC),
+                seconds=round(time.perf_counter() - clock, 3),
+                package_version=__version__,
+                inputs=json.dumps(record.inputs),
+                parameters=json.dumps(record.parameters, default=str, sort_keys=True),
+                row_counts=json.dumps(record.row_counts, sort_keys=True),
+            )
+            self.con.execute("COMMIT")
+        except BaseException:
+            with contextlib.suppress(duckdb.Error):
+                self.con.execute("ROLLBACK")
+            raise
+
+    def discard_if_new(self) -> None:
+        """Remove a workspace file this process created, after a failure left it without results."""
+        if not self.is_new:
+            return
+        with contextlib.suppress(duckdb.Error):
+            self.close()
+        for leftover in (self.path, self.path.with_name(self.path.name + ".wal")):
+            with contextlib.suppress(FileNotFoundError):
+                leftover.unlink()
+
+
+@contextlib.contextmanager
+def open_for_stage(
+    path: str | os.PathLike[str], *, threads: int | None = None, memory_limit: str | None = None
+) -> Iterator[Workspace]:
+    """Open a workspace for writing; a new file is removed again when the stage fails."""
+    ws = Workspace(path, threads=threads, memory_limit=memory_limit)
+    try:
+        yield ws
+    except (GapfinderError, duckdb.Error, KeyboardInterrupt):
+        ws.discard_if_new()
+        raise
+    finally:
+        with contextlib.suppress(duckdb.Error):
+            ws.close()

@@ -1,0 +1,27 @@
+-- Returns one row per reason a source row cannot be used (reason NULL for usable rows), with how
+-- many rows had it, how many of them carried a timestamp without a time zone, how many were noise
+-- events dropped on request, and the time range of the usable rows.
+-- Reads the temporary view mapped_source. Parameters: $noise_events (list of event names to drop).
+WITH classified AS (
+    SELECT
+        CASE
+            WHEN user_id IS NULL OR trim(user_id) = '' THEN 'missing user id'
+            WHEN NOT has_raw_ts THEN 'missing timestamp'
+            WHEN ts IS NULL THEN 'unparsable timestamp'
+            WHEN event IS NULL OR trim(event) = '' THEN 'missing event'
+        END AS reason,
+        is_naive_ts,
+        list_contains($noise_events, event) AS is_noise,
+        ts
+    FROM mapped_source
+)
+SELECT
+    reason,
+    count(*) AS row_count,
+    count(*) FILTER (WHERE is_naive_ts) AS naive_ts_count,
+    count(*) FILTER (WHERE is_noise) AS noise_count,
+    min(ts) AS first_ts,
+    max(ts) AS last_ts
+FROM classified
+GROUP BY reason
+ORDER BY reason NULLS FIRST;

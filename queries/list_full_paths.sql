@@ -1,0 +1,13 @@
+-- Returns distinct complete session paths with at least $min_users distinct users, most sessions
+-- first, as lists of event names, with their share of $total_sessions and error rate.
+-- Reads full_paths. Parameters: $names, $min_users, $total_sessions, $limit (NULL for all).
+SELECT
+    list_transform(path, lambda x: $names[x + 1]) AS path,
+    sessions,
+    users,
+    sessions / greatest($total_sessions, 1)::DOUBLE AS share,
+    error_sessions / greatest(sessions, 1)::DOUBLE AS error_rate
+FROM full_paths
+WHERE users >= $min_users
+ORDER BY sessions DESC, path
+LIMIT $limit;

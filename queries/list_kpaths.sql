@@ -1,0 +1,15 @@
+-- Returns contiguous paths of length $min_k..$max_k (k = 2 are transitions) with at least
+-- $min_users distinct users, most sessions first, as lists of event names, with their share of
+-- $total_sessions. Reads kpaths. Parameters: $names (event names indexed by event id + 1),
+-- $min_k, $max_k, $min_users, $total_sessions, $limit (NULL for all).
+SELECT
+    k,
+    list_transform(path, lambda x: $names[x + 1]) AS path,
+    occurrences,
+    sessions,
+    users,
+    sessions / greatest($total_sessions, 1)::DOUBLE AS share
+FROM kpaths
+WHERE k BETWEEN $min_k AND $max_k AND users >= $min_users
+ORDER BY sessions DESC, occurrences DESC, path
+LIMIT $limit;
