@@ -20,6 +20,7 @@ __all__ = [
     "DEFAULT_MAX_K",
     "Listing",
     "build_paths",
+    "id_bits",
     "feature_names",
     "list_features",
     "list_full_paths",
@@ -27,6 +28,7 @@ __all__ = [
 ]
 
 DEFAULT_MAX_K = 5
+MAX_K = 7
 
 
 @dataclass
@@ -39,15 +41,25 @@ class Listing:
     min_users: int = DEFAULT_MIN_USERS
 
 
+def id_bits(feature_count: int) -> int:
+    """Bits needed for one event id when feature_count ids (START and END included) exist."""
+    return max(feature_count - 1, 1).bit_length()
+
+
 def build_paths(
     con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, include_automated: bool = False
 ) -> None:
-    """Write kpaths, full_paths and feature_usage from the sessions table."""
-    if max_k < 2:
-        raise ConfigError(f"--max-k {max_k}: k-paths need k >= 2 (2 gives transitions)")
-    run(con, "create_kpaths", max_k=max_k, include_automated=include_automated)
-    run(con, "create_full_paths", include_automated=include_automated)
-    run(con, "create_feature_usage", include_automated=include_automated)
+    """Write kpaths (features, transitions and k-paths up to max_k) from full_paths and sessions."""
+    if not 2 <= max_k <= MAX_K:
+        raise ConfigError(f"--max-k {max_k}: give 2 to {MAX_K} (2 counts transitions only)")
+    row = run(con, "count_features").fetchone()
+    bits = id_bits(int(row[0]) if row else 2)
+    if max_k * bits > 60:
+        raise ConfigError(
+            f"--max-k {max_k}: with {2**bits - 2:,}+ distinct events a path of {max_k} steps does not "
+            f"fit in 60 bits; use --max-k {60 // bits} or less"
+        )
+    run(con, "create_kpaths", max_k=max_k, bits=bits, include_automated=include_automated)
 
 
 def feature_names(con: duckdb.DuckDBPyConnection) -> list[str]:

@@ -14,11 +14,14 @@ from typing import Any
 
 import duckdb
 
-from gapfinder.errors import ConfigError
+from gapfinder.errors import ConfigError, InputError
 from gapfinder.privacy import hmac_pads
 from gapfinder.sql import fetch_dicts, run
 
 __all__ = ["DEFAULT_ERROR_OUTCOMES", "SessionOptions", "build_sessions", "count_source_rows"]
+
+# Paths are rebuilt from (position << 16 | event id), so event ids must fit in 16 bits.
+MAX_FEATURES = 65_534
 
 DEFAULT_ERROR_OUTCOMES: tuple[str, ...] = (
     "error", "err", "fail", "failed", "failure", "exception", "crash", "timeout",
@@ -91,25 +94,35 @@ def build_sessions(
     *,
     options: SessionOptions,
     use_session_column: bool,
+    include_automated: bool = False,
     pseudonymize_key: bytes | None = None,
 ) -> None:
-    """Write features, users, steps, sessions and automated_users from ``mapped_source``."""
-    run(
-        con,
-        "create_usable_events",
-        noise_events=list(options.drop_events),
-        error_outcomes=[o.lower() for o in options.error_outcomes],
-    )
-    run(con, "create_features")
-    run(con, "create_users")
+    """Write features, users, automated_users, full_paths and sessions from ``mapped_source``.
+
+    One window pass over the events forms the sessions; everything after works on sessions.
+    """
+    noise = list(options.drop_events)
+    run(con, "create_features", noise_events=noise)
+    feature_count = run(con, "count_features").fetchone()
+    if feature_count and feature_count[0] > MAX_FEATURES:
+        raise InputError(
+            f"the telemetry has {feature_count[0]:,} distinct event names; gapfinder handles up to "
+            f"{MAX_FEATURES:,}: map a coarser event column or drop the noisiest events with --drop"
+        )
+    run(con, "create_user_keys", noise_events=noise)
     inner, outer = hmac_pads(pseudonymize_key) if pseudonymize_key else (None, None)
     run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
+    shared = {
+        "collapse_repeats": options.collapse_repeats,
+        "max_events": options.max_events,
+        "noise_events": noise,
+        "error_outcomes": [o.lower() for o in options.error_outcomes],
+    }
     if use_session_column:
-        run(con, "create_steps_by_session_column", collapse_repeats=options.collapse_repeats)
+        run(con, "create_raw_sessions_by_session_column", **shared)
     else:
         idle_us = round(options.idle_minutes * 60 * 1_000_000)
-        run(con, "create_steps_by_idle_gap", idle_us=idle_us, collapse_repeats=options.collapse_repeats)
-    run(con, "create_sessions", max_events=options.max_events)
+        run(con, "create_raw_sessions_by_idle_gap", idle_us=idle_us, **shared)
     run(
         con,
         "create_automated_users",
@@ -118,7 +131,7 @@ def build_sessions(
         # Turning flagging off keeps the (then empty) table so later stages read one schema.
         min_events=options.automated_min_events if options.flag_automated else 2**62,
     )
-    if options.flag_automated:
-        run(con, "mark_automated_sessions")
-    con.execute("DROP TABLE IF EXISTS usable_events")
-    con.execute("DROP TABLE IF EXISTS user_keys")
+    run(con, "create_full_paths", include_automated=include_automated)
+    run(con, "create_sessions")
+    run(con, "drop_raw_sessions")
+    run(con, "drop_user_keys")

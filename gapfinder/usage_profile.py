@@ -172,6 +172,7 @@ def profile_telemetry(
                 con,
                 options=options.sessions,
                 use_session_column=source.has_session_column,
+                include_automated=options.include_automated,
                 pseudonymize_key=options.pseudonymize_key,
             )
             say("counting paths")

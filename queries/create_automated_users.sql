@@ -5,7 +5,7 @@
 --     to Detect and Handle Outliers", 1993), exceeds $min_robust_z (a zero MAD counts as exceeding);
 --   * the value is at least $min_ratio times the median user's;
 --   * the user has at least $min_events events in all.
--- Reads sessions. Parameters: $min_robust_z (DOUBLE), $min_ratio (DOUBLE), $min_events (INTEGER).
+-- Reads raw_sessions. Parameters: $min_robust_z (DOUBLE), $min_ratio (DOUBLE), $min_events (INTEGER).
 CREATE OR REPLACE TABLE automated_users AS
 WITH per_user AS (
     SELECT
@@ -15,7 +15,7 @@ WITH per_user AS (
         sum(event_count)::DOUBLE / count(*) AS events_per_session,
         sum(event_count)::DOUBLE
             / greatest(sum(epoch(ended_at) - epoch(started_at)) / 60.0, 1.0) AS events_per_minute
-    FROM sessions
+    FROM raw_sessions
     GROUP BY user_key
 ),
 long_form AS (

@@ -1,12 +1,28 @@
--- Creates the full_paths table: each distinct complete session path (without START/END) with
--- the sessions that took it, distinct users and sessions with at least one error.
--- Reads sessions. Parameters: $include_automated (BOOLEAN).
+-- Creates the full_paths table: each distinct complete session path (event ids, without
+-- START/END) with a path_id (most taken first), and over the sessions that count for the usage
+-- profile (automated users' sessions only with $include_automated): sessions, distinct users and
+-- sessions with at least one error; plus how many automated sessions took it. Paths taken only by
+-- automated traffic keep a row (sessions = 0) so every session has a path_id.
+-- Reads raw_sessions, automated_users. Parameters: $include_automated (BOOLEAN).
 CREATE OR REPLACE TABLE full_paths AS
-SELECT
-    path,
-    count(*)::BIGINT AS sessions,
-    count(DISTINCT user_key)::BIGINT AS users,
-    count(*) FILTER (WHERE error_count > 0)::BIGINT AS error_sessions
-FROM sessions
-WHERE $include_automated OR NOT is_automated
-GROUP BY path;
+WITH marked AS (
+    SELECT
+        r.path,
+        r.user_key,
+        r.error_count,
+        r.user_key IN (SELECT user_key FROM automated_users) AS is_automated
+    FROM raw_sessions AS r
+),
+grouped AS (
+    SELECT
+        path,
+        count(*) FILTER (WHERE $include_automated OR NOT is_automated)::BIGINT AS sessions,
+        count(DISTINCT user_key) FILTER (WHERE $include_automated OR NOT is_automated)::BIGINT AS users,
+        count(*) FILTER (WHERE ($include_automated OR NOT is_automated) AND error_count > 0)::BIGINT
+            AS error_sessions,
+        count(*) FILTER (WHERE is_automated)::BIGINT AS automated_sessions
+    FROM marked
+    GROUP BY path
+)
+SELECT row_number() OVER (ORDER BY sessions DESC, automated_sessions DESC, path)::INTEGER AS path_id, *
+FROM grouped;

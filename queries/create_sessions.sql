@@ -1,33 +1,20 @@
--- Creates the sessions table: one row per session with its ordered path of event ids (cut at
--- $max_events when that is positive), counts, errors, time span and the segment values at its
--- first event. is_automated starts false and is set by mark_automated_sessions.sql.
--- Reads steps. Parameters: $max_events (INTEGER, 0 for no cap).
+-- Creates the sessions table: one row per session (session_key numbered by user, then start),
+-- with its path and path_id, counts, errors, time span, segments and whether its user was flagged
+-- as automated. Reads raw_sessions, full_paths, automated_users. Parameters: none.
 CREATE OR REPLACE TABLE sessions AS
-WITH grouped AS (
-    SELECT
-        user_key,
-        session_no,
-        min(ts) AS started_at,
-        max(ts) AS ended_at,
-        count(*)::INTEGER AS event_count,
-        count(*) FILTER (WHERE is_error)::INTEGER AS error_count,
-        list(event_id ORDER BY seq) AS full_path,
-        arg_min(app_version, seq) AS app_version,
-        arg_min(platform, seq) AS platform
-    FROM steps
-    GROUP BY user_key, session_no
-)
 SELECT
-    row_number() OVER (ORDER BY user_key, session_no) AS session_key,
-    user_key,
-    session_no,
-    started_at,
-    ended_at,
-    event_count,
-    error_count,
-    CASE WHEN $max_events > 0 THEN full_path[1:$max_events] ELSE full_path END AS path,
-    ($max_events > 0 AND event_count > $max_events) AS is_truncated,
-    app_version,
-    platform,
-    false AS is_automated
-FROM grouped;
+    row_number() OVER (ORDER BY r.user_key, r.session_no) AS session_key,
+    r.user_key,
+    r.session_no,
+    p.path_id,
+    r.started_at,
+    r.ended_at,
+    r.event_count,
+    r.error_count,
+    r.path,
+    r.is_truncated,
+    r.app_version,
+    r.platform,
+    r.user_key IN (SELECT user_key FROM automated_users) AS is_automated
+FROM raw_sessions AS r
+JOIN full_paths AS p USING (path);

@@ -8,6 +8,6 @@ SELECT
     sessions / greatest($total_sessions, 1)::DOUBLE AS share,
     error_sessions / greatest(sessions, 1)::DOUBLE AS error_rate
 FROM full_paths
-WHERE users >= $min_users
+WHERE sessions > 0 AND users >= $min_users
 ORDER BY sessions DESC, path
 LIMIT $limit;
