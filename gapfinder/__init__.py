@@ -10,8 +10,8 @@ from __future__ import annotations
 
 __version__ = "0.1.0"
 
-from gapfinder.errors import ConfigError, GapfinderError, InputError, QueryError  # noqa: E402
-from gapfinder.usage_profile import ProfileOptions, profile_telemetry  # noqa: E402
+from gapfinder.errors import ConfigError, GapfinderError, InputError, QueryError
+from gapfinder.usage_profile import ProfileOptions, profile_telemetry
 
 __all__ = [
     "ConfigError",

@@ -125,8 +125,7 @@ class GapfinderGroup(click.Group):
                 traceback.print_exc()
             else:
                 click.echo(
-                    f"gapfinder: internal error ({type(exc).__name__}: {exc}); "
-                    "rerun with --debug and report it",
+                    f"gapfinder: internal error ({type(exc).__name__}: {exc}); rerun with --debug and report it",
                     err=True,
                 )
             ctx.exit(3)
@@ -148,8 +147,13 @@ def cli(ctx: click.Context, debug: bool) -> None:
 
 @cli.command()
 @click.option("--out", required=True, type=click.Path(file_okay=False), help="Folder to write the demo into.")
-@click.option("--events", default=200_000, show_default=True, type=click.IntRange(min=1000),
-              help="About how many field events to generate.")
+@click.option(
+    "--events",
+    default=200_000,
+    show_default=True,
+    type=click.IntRange(min=1000),
+    help="About how many field events to generate.",
+)
 @click.option("--seed", default=7, show_default=True, type=int, help="Random seed; the same seed gives the same files.")
 def demo(out: str, events: int, seed: int) -> None:
     """Generate the invented tool-library demo: field telemetry, test traces and a manifest."""
@@ -180,33 +184,83 @@ def _parse_mapping(config: str | None, items: tuple[str, ...]) -> dict[str, str]
 @cli.command()
 @click.argument("telemetry", nargs=-1, required=True)
 @workspace_option
-@click.option("--map", "maps", multiple=True, metavar="CANONICAL=SOURCE",
-              help="Map a canonical column (user_id, session_id, ts, event, app_version, platform, "
-                   "outcome) to a source column; repeatable.")
-@click.option("--config", type=click.Path(dir_okay=False),
-              help="A gapfinder.toml whose [columns] table maps columns (default: ./gapfinder.toml if present).")
-@click.option("--ts-unit", type=click.Choice(["s", "ms", "us", "ns"]),
-              help="Unit of epoch-number timestamps (default: detected from their size).")
+@click.option(
+    "--map",
+    "maps",
+    multiple=True,
+    metavar="CANONICAL=SOURCE",
+    help="Map a canonical column (user_id, session_id, ts, event, app_version, platform, "
+    "outcome) to a source column; repeatable.",
+)
+@click.option(
+    "--config",
+    type=click.Path(dir_okay=False),
+    help="A gapfinder.toml whose [columns] table maps columns (default: ./gapfinder.toml if present).",
+)
+@click.option(
+    "--ts-unit",
+    type=click.Choice(["s", "ms", "us", "ns"]),
+    help="Unit of epoch-number timestamps (default: detected from their size).",
+)
 @click.option("--ts-format", help="strptime format of text timestamps (default: ISO-8601).")
-@click.option("--idle", default=30.0, show_default=True, type=click.FloatRange(min=0, min_open=True),
-              help="Minutes of inactivity that end a session (ignored with a session column).")
-@click.option("--drop", "drop_events", multiple=True, metavar="EVENT",
-              help="An event to remove before sessionizing (heartbeats, pings); repeatable.")
+@click.option(
+    "--idle",
+    default=30.0,
+    show_default=True,
+    type=click.FloatRange(min=0, min_open=True),
+    help="Minutes of inactivity that end a session (ignored with a session column).",
+)
+@click.option(
+    "--drop",
+    "drop_events",
+    multiple=True,
+    metavar="EVENT",
+    help="An event to remove before sessionizing (heartbeats, pings); repeatable.",
+)
 @click.option("--collapse-repeats", is_flag=True, help="Drop an event that repeats the one just before it.")
-@click.option("--max-events", default=500, show_default=True, type=click.IntRange(min=0),
-              help="Cut sessions longer than this many events (0: no cap); the cut is reported.")
-@click.option("--error-outcome", "error_outcomes", multiple=True, metavar="VALUE",
-              help="An outcome value that means failure (default: error, fail, failed, exception, ...).")
-@click.option("--automated/--no-automated", "flag_automated", default=True, show_default=True,
-              help="Flag accounts far outside the rest as automated and keep them apart.")
+@click.option(
+    "--max-events",
+    default=500,
+    show_default=True,
+    type=click.IntRange(min=0),
+    help="Cut sessions longer than this many events (0: no cap); the cut is reported.",
+)
+@click.option(
+    "--error-outcome",
+    "error_outcomes",
+    multiple=True,
+    metavar="VALUE",
+    help="An outcome value that means failure (default: error, fail, failed, exception, ...).",
+)
+@click.option(
+    "--automated/--no-automated",
+    "flag_automated",
+    default=True,
+    show_default=True,
+    help="Flag accounts far outside the rest as automated and keep them apart.",
+)
 @click.option("--include-automated", is_flag=True, help="Count flagged automated sessions in the paths too.")
-@click.option("--max-k", default=5, show_default=True, type=click.IntRange(min=2),
-              help="Longest contiguous path (k-path) to count.")
-@click.option("--key-env", metavar="VAR", help="Pseudonymize user ids with the HMAC-SHA256 key in this environment variable.")
+@click.option(
+    "--max-k",
+    default=5,
+    show_default=True,
+    type=click.IntRange(min=2),
+    help="Longest contiguous path (k-path) to count.",
+)
+@click.option(
+    "--key-env", metavar="VAR", help="Pseudonymize user ids with the HMAC-SHA256 key in this environment variable."
+)
 @click.option("--key-file", type=click.Path(dir_okay=False), help="Pseudonymize user ids with the key in this file.")
-@click.option("--top", default=10, show_default=True, type=click.IntRange(min=1), help="Rows per listing in the summary.")
-@click.option("--min-users", default=5, show_default=True, type=click.IntRange(min=1),
-              help="Privacy floor: hide paths taken by fewer distinct users.")
+@click.option(
+    "--top", default=10, show_default=True, type=click.IntRange(min=1), help="Rows per listing in the summary."
+)
+@click.option(
+    "--min-users",
+    default=5,
+    show_default=True,
+    type=click.IntRange(min=1),
+    help="Privacy floor: hide paths taken by fewer distinct users.",
+)
 @click.option("--threads", type=click.IntRange(min=1), help="DuckDB threads (default: all cores).")
 @click.option("--memory-limit", metavar="SIZE", help="DuckDB memory limit, e.g. 4GB; larger work spills to disk.")
 @output_options

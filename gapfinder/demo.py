@@ -13,6 +13,7 @@ over events or sessions.
 
 from __future__ import annotations
 
+import itertools
 import json
 import os
 from dataclasses import dataclass
@@ -66,41 +67,115 @@ class Journey:
 
 
 JOURNEYS: tuple[Journey, ...] = (
-    Journey("browse", (("login", 0.6), ("search_catalogue", 1), ("view_tool", 1), ("view_tool", 0.35)),
-            0.30, 0.26, tested_by="test_browse_catalogue"),
-    Journey("reserve_pay_card", (("login", 0.6), ("search_catalogue", 1), ("view_tool", 1),
-            ("reserve_tool", 1), ("pick_slot", 1), ("pay_deposit_card", 1)),
-            0.16, 0.15, tested_by="test_reserve_and_pay_by_card"),
-    Journey("reserve_pay_voucher", (("login", 0.6), ("search_catalogue", 1), ("view_tool", 1),
-            ("reserve_tool", 1), ("pick_slot", 1), ("pay_deposit_voucher", 1)),
-            0.08, 0.08, signature=("pick_slot", "pay_deposit_voucher")),
-    Journey("card_fails_then_voucher", (("login", 0.6), ("search_catalogue", 1), ("view_tool", 1),
-            ("reserve_tool", 1), ("pick_slot", 1), ("pay_deposit_card", 1), ("pay_deposit_voucher", 1)),
-            0.035, 0.035, signature=("pay_deposit_card", "pay_deposit_voucher")),
-    Journey("collect", (("login", 0.6), ("open_notifications", 1), ("collect_tool", 1)),
-            0.10, 0.09, tested_by="test_collect_tool"),
-    Journey("extend_loan", (("login", 0.6), ("open_notifications", 1), ("extend_loan", 1)),
-            0.07, 0.07, signature=("open_notifications", "extend_loan")),
-    Journey("return_and_rate", (("login", 0.6), ("return_tool", 1), ("rate_tool", 1)),
-            0.10, 0.09, tested_by="test_return_and_rate"),
-    Journey("return_with_damage", (("login", 0.6), ("return_tool", 1), ("report_damage", 1)),
-            0.045, 0.045, signature=("return_tool", "report_damage")),
-    Journey("sign_up", (("sign_up", 1), ("login", 1), ("search_catalogue", 1), ("view_tool", 0.7)),
-            0.06, 0.05, tested_by="test_sign_up"),
-    Journey("settings", (("login", 0.6), ("change_settings", 1)),
-            0.048, 0.043, tested_by="test_change_settings"),
-    Journey("delete_account", (("login", 1), ("change_settings", 1), ("delete_account", 1)),
-            0.002, 0.002, tested_by="test_delete_account"),
-    Journey("join_waitlist", (("login", 0.6), ("search_catalogue", 1), ("view_tool", 1),
-            ("join_waitlist", 1)),
-            0.0, 0.08, signature=("view_tool", "join_waitlist")),
+    Journey(
+        "browse",
+        (("login", 0.6), ("search_catalogue", 1), ("view_tool", 1), ("view_tool", 0.35)),
+        0.30,
+        0.26,
+        tested_by="test_browse_catalogue",
+    ),
+    Journey(
+        "reserve_pay_card",
+        (
+            ("login", 0.6),
+            ("search_catalogue", 1),
+            ("view_tool", 1),
+            ("reserve_tool", 1),
+            ("pick_slot", 1),
+            ("pay_deposit_card", 1),
+        ),
+        0.16,
+        0.15,
+        tested_by="test_reserve_and_pay_by_card",
+    ),
+    Journey(
+        "reserve_pay_voucher",
+        (
+            ("login", 0.6),
+            ("search_catalogue", 1),
+            ("view_tool", 1),
+            ("reserve_tool", 1),
+            ("pick_slot", 1),
+            ("pay_deposit_voucher", 1),
+        ),
+        0.08,
+        0.08,
+        signature=("pick_slot", "pay_deposit_voucher"),
+    ),
+    Journey(
+        "card_fails_then_voucher",
+        (
+            ("login", 0.6),
+            ("search_catalogue", 1),
+            ("view_tool", 1),
+            ("reserve_tool", 1),
+            ("pick_slot", 1),
+            ("pay_deposit_card", 1),
+            ("pay_deposit_voucher", 1),
+        ),
+        0.035,
+        0.035,
+        signature=("pay_deposit_card", "pay_deposit_voucher"),
+    ),
+    Journey(
+        "collect",
+        (("login", 0.6), ("open_notifications", 1), ("collect_tool", 1)),
+        0.10,
+        0.09,
+        tested_by="test_collect_tool",
+    ),
+    Journey(
+        "extend_loan",
+        (("login", 0.6), ("open_notifications", 1), ("extend_loan", 1)),
+        0.07,
+        0.07,
+        signature=("open_notifications", "extend_loan"),
+    ),
+    Journey(
+        "return_and_rate",
+        (("login", 0.6), ("return_tool", 1), ("rate_tool", 1)),
+        0.10,
+        0.09,
+        tested_by="test_return_and_rate",
+    ),
+    Journey(
+        "return_with_damage",
+        (("login", 0.6), ("return_tool", 1), ("report_damage", 1)),
+        0.045,
+        0.045,
+        signature=("return_tool", "report_damage"),
+    ),
+    Journey(
+        "sign_up",
+        (("sign_up", 1), ("login", 1), ("search_catalogue", 1), ("view_tool", 0.7)),
+        0.06,
+        0.05,
+        tested_by="test_sign_up",
+    ),
+    Journey("settings", (("login", 0.6), ("change_settings", 1)), 0.048, 0.043, tested_by="test_change_settings"),
+    Journey(
+        "delete_account",
+        (("login", 1), ("change_settings", 1), ("delete_account", 1)),
+        0.002,
+        0.002,
+        tested_by="test_delete_account",
+    ),
+    Journey(
+        "join_waitlist",
+        (("login", 0.6), ("search_catalogue", 1), ("view_tool", 1), ("join_waitlist", 1)),
+        0.0,
+        0.08,
+        signature=("view_tool", "join_waitlist"),
+    ),
 )
 
 # The demo's test suite: (test id, steps). Two tests exercise paths members rarely or never take.
 SUITE: tuple[tuple[str, tuple[str, ...]], ...] = (
     ("test_browse_catalogue", ("login", "search_catalogue", "view_tool")),
-    ("test_reserve_and_pay_by_card",
-     ("login", "search_catalogue", "view_tool", "reserve_tool", "pick_slot", "pay_deposit_card")),
+    (
+        "test_reserve_and_pay_by_card",
+        ("login", "search_catalogue", "view_tool", "reserve_tool", "pick_slot", "pay_deposit_card"),
+    ),
     ("test_collect_tool", ("login", "open_notifications", "collect_tool")),
     ("test_return_and_rate", ("login", "return_tool", "rate_tool")),
     ("test_sign_up", ("sign_up", "login", "search_catalogue", "view_tool")),
@@ -223,7 +298,7 @@ def generate_demo(
     lag_days = rng.exponential(12.0, size=session_count).astype("timedelta64[D]").astype("timedelta64[us]")
     seen = starts - lag_days
     version = np.where(seen < np.datetime64("2026-03-01", "us"), 0, np.where(seen < SECOND_QUARTER, 1, 2))
-    waitlist = [i for i, j in enumerate(JOURNEYS) if j.name == "join_waitlist"][0]
+    waitlist = next(i for i, j in enumerate(JOURNEYS) if j.name == "join_waitlist")
     version[journey_of == waitlist] = 2
     versions = np.array(["4.1", "4.2", "5.0"])
     platforms = np.array([p for p, _ in PLATFORMS])
@@ -234,13 +309,13 @@ def generate_demo(
         rate[_CODE[name]] = r
     event_rate = rate[code]
     segment = (
-        (code == _CODE[SEGMENT_ERROR["event"]])
+        (code == _CODE[str(SEGMENT_ERROR["event"])])
         & (platform_of_user[user_of[sess]] == [p for p, _ in PLATFORMS].index(str(SEGMENT_ERROR["platform"])))
         & (version[sess] == list(versions).index(str(SEGMENT_ERROR["app_version"])))
     )
     event_rate[segment] = float(SEGMENT_ERROR["rate"])  # type: ignore[arg-type]
     is_error = rng.random(len(code)) < event_rate
-    fails_first = [i for i, j in enumerate(JOURNEYS) if j.name == "card_fails_then_voucher"][0]
+    fails_first = next(i for i, j in enumerate(JOURNEYS) if j.name == "card_fails_then_voucher")
     is_error[(journey_of[sess] == fails_first) & (code == _CODE["pay_deposit_card"])] = True
 
     user_ids = np.char.add("m", np.char.zfill(np.arange(user_count).astype(str), 6))
@@ -275,7 +350,7 @@ def generate_demo(
         "scenario": "community tool library (invented)",
         "seed": seed,
         "events_requested": events,
-        "field_events": int(len(columns["event"])),
+        "field_events": len(columns["event"]),
         "member_sessions": session_count,
         "members": user_count,
         "period": {"start": "2026-01-01", "end": "2026-06-30", "second_quarter_from": "2026-04-01"},
@@ -296,7 +371,7 @@ def generate_demo(
         "automated_account": {
             "loop": list(BOT_LOOP),
             "loop_transition": [BOT_LOOP[1], BOT_LOOP[0]],
-            "sessions": int(len(bot_starts)),
+            "sessions": len(bot_starts),
             "events": int(bot_n),
             "seconds_between_events": 2,
         },
@@ -310,8 +385,8 @@ def generate_demo(
         field_files=field_files,
         suite_file=suite_file,
         manifest_file=manifest_file,
-        event_count=int(len(columns["event"])),
-        session_count=session_count + int(len(bot_starts)),
+        event_count=len(columns["event"]),
+        session_count=session_count + len(bot_starts),
         user_count=user_count + 1,
     )
 
@@ -328,9 +403,9 @@ def _write_field(field_dir: Path, columns: dict[str, Any]) -> list[Path]:
     month = month[order]
     boundaries = np.r_[0, np.nonzero(month[1:] != month[:-1])[0] + 1, len(month)]
     written = []
-    for lo, hi in zip(boundaries[:-1], boundaries[1:], strict=True):
+    for lo, hi in itertools.pairwise(boundaries):
         part = order[lo:hi]
-        folder = field_dir / f"month={str(month[lo])}"
+        folder = field_dir / f"month={month[lo]!s}"
         folder.mkdir(parents=True, exist_ok=True)
         table = pa.table(
             {

@@ -20,8 +20,8 @@ __all__ = [
     "DEFAULT_MAX_K",
     "Listing",
     "build_paths",
-    "id_bits",
     "feature_names",
+    "id_bits",
     "list_features",
     "list_full_paths",
     "list_kpaths",
@@ -46,9 +46,7 @@ def id_bits(feature_count: int) -> int:
     return max(feature_count - 1, 1).bit_length()
 
 
-def build_paths(
-    con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, include_automated: bool = False
-) -> None:
+def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, include_automated: bool = False) -> None:
     """Write kpaths (features, transitions and k-paths up to max_k) from full_paths and sessions."""
     if not 2 <= max_k <= MAX_K:
         raise ConfigError(f"--max-k {max_k}: give 2 to {MAX_K} (2 counts transitions only)")
@@ -115,8 +113,6 @@ def list_features(
     con: duckdb.DuckDBPyConnection, *, min_users: int = DEFAULT_MIN_USERS, limit: int | None = None
 ) -> Listing:
     """Features by occurrences with sessions and users, privacy floor applied."""
-    rows = fetch_dicts(
-        con, "list_feature_usage", min_users=min_users, total_sessions=_total_sessions(con), limit=limit
-    )
+    rows = fetch_dicts(con, "list_feature_usage", min_users=min_users, total_sessions=_total_sessions(con), limit=limit)
     hidden = fetch_dicts(con, "count_features_below_floor", min_users=min_users)[0]
     return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)

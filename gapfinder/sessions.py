@@ -24,7 +24,14 @@ __all__ = ["DEFAULT_ERROR_OUTCOMES", "SessionOptions", "build_sessions", "count_
 MAX_FEATURES = 65_534
 
 DEFAULT_ERROR_OUTCOMES: tuple[str, ...] = (
-    "error", "err", "fail", "failed", "failure", "exception", "crash", "timeout",
+    "error",
+    "err",
+    "fail",
+    "failed",
+    "failure",
+    "exception",
+    "crash",
+    "timeout",
 )
 
 

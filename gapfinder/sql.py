@@ -14,7 +14,7 @@ import duckdb
 
 from gapfinder.errors import QueryError
 
-__all__ = ["load", "query_dir", "run", "fetch_dicts"]
+__all__ = ["fetch_dicts", "load", "query_dir", "run"]
 
 
 @functools.cache
@@ -39,9 +39,7 @@ def load(name: str) -> str:
         raise QueryError(f"no query named {name!r} in {query_dir()}") from None
 
 
-def run(
-    con: duckdb.DuckDBPyConnection, name: str, /, **params: Any
-) -> duckdb.DuckDBPyConnection:
+def run(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> duckdb.DuckDBPyConnection:
     """Execute ``queries/<name>.sql`` with ``params`` bound to its ``$parameters``."""
     try:
         return con.execute(load(name), params or None)

@@ -60,9 +60,7 @@ class AbsorbingChain:
         return h
 
 
-def absorbing_chain(
-    P: np.ndarray, transient: Sequence[int], absorbing: Sequence[int]
-) -> AbsorbingChain:
+def absorbing_chain(P: np.ndarray, transient: Sequence[int], absorbing: Sequence[int]) -> AbsorbingChain:
     """Fundamental matrix, expected steps and absorption probabilities of a chain.
 
     Examples

@@ -60,8 +60,7 @@ def _iso(value: Any) -> str | None:
 def _fit_model(con: duckdb.DuckDBPyConnection) -> UsageModel:
     names = feature_names(con)
     edges = [
-        (r["source"], r["target"], r["occurrences"])
-        for r in fetch_dicts(con, "list_transition_counts", names=names)
+        (r["source"], r["target"], r["occurrences"]) for r in fetch_dicts(con, "list_transition_counts", names=names)
     ]
     model = UsageModel.from_transitions(edges)
     edge_rows = [
@@ -136,9 +135,7 @@ def profile_telemetry(
             },
         )
         say("reading telemetry")
-        source = open_telemetry(
-            ws.con, inputs, options.mapping, ts_unit=options.ts_unit, ts_format=options.ts_format
-        )
+        source = open_telemetry(ws.con, inputs, options.mapping, ts_unit=options.ts_unit, ts_format=options.ts_format)
         counts = count_source_rows(ws.con, options.sessions)
         if counts.rows_read == 0:
             raise InputError(f"{source.files.label}: no events in the input (0 rows)")
@@ -191,9 +188,7 @@ def profile_telemetry(
         return summary
 
 
-def summarize_profile(
-    ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_MIN_USERS
-) -> dict[str, Any]:
+def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_MIN_USERS) -> dict[str, Any]:
     """The profile summary from the workspace: reading, sessions, features, paths, model, bots."""
     ws.require("sessions", "kpaths", "usage_edges", hint="run `gapfinder profile TELEMETRY -w ...` first")
     con = ws.con
@@ -236,9 +231,7 @@ def summarize_profile(
         },
         "usage_model": {
             "expected_session_length": model.expected_session_length(),
-            "most_probable_paths": [
-                {"path": path, "probability": p} for path, p in model.most_probable_paths(5)
-            ],
+            "most_probable_paths": [{"path": path, "probability": p} for path, p in model.most_probable_paths(5)],
         },
         "automated": {
             "users": stats["automated_user_count"],

@@ -80,9 +80,7 @@ class Workspace:
         self.path = Path(path)
         self.is_new = not self.path.exists()
         if read_only and self.is_new:
-            raise InputError(
-                f"workspace {self.path} does not exist: run `gapfinder profile ... -w {self.path}` first"
-            )
+            raise InputError(f"workspace {self.path} does not exist: run `gapfinder profile ... -w {self.path}` first")
         if self.path.parent and not self.path.parent.exists():
             raise ConfigError(f"workspace folder {self.path.parent} does not exist: create it first")
         try:

@@ -72,16 +72,32 @@ def render_profile(summary: dict[str, Any], console: Console) -> None:
     model = summary["usage_model"]
     console.print(f"usage model: expected session length {model['expected_session_length']:.2f} events")
 
-    features = _table("Most used features", ("feature", "left"), ("events", "right"),
-                      ("sessions", "right"), ("users", "right"), ("share of sessions", "right"))
+    features = _table(
+        "Most used features",
+        ("feature", "left"),
+        ("events", "right"),
+        ("sessions", "right"),
+        ("users", "right"),
+        ("share of sessions", "right"),
+    )
     for r in summary["features"]["top"]:
         features.add_row(r["event"], f"{r['occurrences']:,}", f"{r['sessions']:,}", f"{r['users']:,}", _pct(r["share"]))
     console.print(features)
-    _print_paths(console, "Most taken transitions", summary["transitions"]["top"], summary["transitions"]["suppressed"],
-                 summary["privacy"]["min_users"])
-    _print_paths(console, "Most taken complete paths", summary["full_paths"]["top"],
-                 summary["full_paths"]["suppressed"], summary["privacy"]["min_users"],
-                 note=f"{summary['full_paths']['distinct']:,} distinct paths in all")
+    _print_paths(
+        console,
+        "Most taken transitions",
+        summary["transitions"]["top"],
+        summary["transitions"]["suppressed"],
+        summary["privacy"]["min_users"],
+    )
+    _print_paths(
+        console,
+        "Most taken complete paths",
+        summary["full_paths"]["top"],
+        summary["full_paths"]["suppressed"],
+        summary["privacy"]["min_users"],
+        note=f"{summary['full_paths']['distinct']:,} distinct paths in all",
+    )
 
     likely = _table("Most probable complete paths under the usage model", ("path", "left"), ("probability", "right"))
     for r in model["most_probable_paths"]:

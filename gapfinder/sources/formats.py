@@ -64,25 +64,19 @@ def resolve_files(inputs: Sequence[str | os.PathLike[str]]) -> SourceFiles:
                 raise InputError(f"{item}: the pattern matches no file")
             found.extend(m for m in matches if Path(m).is_file())
         elif Path(item).is_dir():
-            inside = sorted(
-                str(p) for p in Path(item).rglob("*") if p.is_file() and _format_of(str(p))
-            )
+            inside = sorted(str(p) for p in Path(item).rglob("*") if p.is_file() and _format_of(str(p)))
             if not inside:
-                raise InputError(
-                    f"{item}: the folder holds no .parquet, .csv, .tsv, .ndjson or .jsonl file"
-                )
+                raise InputError(f"{item}: the folder holds no .parquet, .csv, .tsv, .ndjson or .jsonl file")
             found.extend(inside)
         elif Path(item).is_file():
             found.append(item)
         else:
             raise InputError(f"{item}: no such file or folder")
-    kinds = {}
+    kinds: dict[str, str] = {}
     for f in found:
         kind = _format_of(f)
         if kind is None:
-            raise InputError(
-                f"{f}: unknown file type; use .parquet, .csv, .tsv, .ndjson or .jsonl (optionally .gz)"
-            )
+            raise InputError(f"{f}: unknown file type; use .parquet, .csv, .tsv, .ndjson or .jsonl (optionally .gz)")
         kinds.setdefault(kind, f)
     if len(kinds) > 1:
         listed = ", ".join(f"{k} ({v})" for k, v in kinds.items())

@@ -24,9 +24,7 @@ REQUIRED_COLUMNS: tuple[str, ...] = ("user_id", "ts", "event")
 
 def _check_canonical(name: str, where: str) -> None:
     if name not in CANONICAL_COLUMNS:
-        raise ConfigError(
-            f"{where}: {name!r} is not a canonical column; use one of {', '.join(CANONICAL_COLUMNS)}"
-        )
+        raise ConfigError(f"{where}: {name!r} is not a canonical column; use one of {', '.join(CANONICAL_COLUMNS)}")
 
 
 def parse_map_options(items: Iterable[str]) -> dict[str, str]:
@@ -42,9 +40,7 @@ def parse_map_options(items: Iterable[str]) -> dict[str, str]:
         canonical, sep, source = item.partition("=")
         canonical, source = canonical.strip(), source.strip()
         if not sep or not canonical or not source:
-            raise ConfigError(
-                f"--map {item!r}: write canonical=source, for example --map user_id=member"
-            )
+            raise ConfigError(f"--map {item!r}: write canonical=source, for example --map user_id=member")
         _check_canonical(canonical, f"--map {item!r}")
         if canonical in mapping and mapping[canonical] != source:
             raise ConfigError(f"--map maps {canonical!r} twice ({mapping[canonical]!r}, {source!r})")
@@ -63,7 +59,7 @@ def load_config_columns(path: str | Path) -> dict[str, str]:
         raise ConfigError(f"{config}: not valid TOML ({exc})") from None
     columns = data.get("columns", {})
     if not isinstance(columns, dict):
-        raise ConfigError(f"{config}: [columns] must be a table of canonical = \"source\" pairs")
+        raise ConfigError(f'{config}: [columns] must be a table of canonical = "source" pairs')
     mapping: dict[str, str] = {}
     for canonical, source in columns.items():
         _check_canonical(canonical, f"{config} [columns]")

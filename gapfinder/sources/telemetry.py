@@ -21,8 +21,17 @@ EPOCH_UNITS: dict[str, float] = {"s": 1e6, "ms": 1e3, "us": 1.0, "ns": 1e-3}
 _TEXT_TYPES = {"VARCHAR"}
 _NAIVE_TYPES = {"TIMESTAMP", "TIMESTAMP_NS", "TIMESTAMP_MS", "TIMESTAMP_S", "DATE", "TIMESTAMP WITH TIME ZONE"}
 _NUMERIC_TYPES = {
-    "TINYINT", "SMALLINT", "INTEGER", "BIGINT", "HUGEINT", "UTINYINT", "USMALLINT",
-    "UINTEGER", "UBIGINT", "FLOAT", "DOUBLE",
+    "TINYINT",
+    "SMALLINT",
+    "INTEGER",
+    "BIGINT",
+    "HUGEINT",
+    "UTINYINT",
+    "USMALLINT",
+    "UINTEGER",
+    "UBIGINT",
+    "FLOAT",
+    "DOUBLE",
 }
 # Epoch values at or above these bounds are read in the next finer unit (detection by size):
 # 1e11 s is the year 5138, so anything larger is not seconds, and so on down to nanoseconds.
@@ -102,9 +111,7 @@ def _timestamp_expression(
         number = col.try_cast(T.DOUBLE)
         unit, detected = ts_unit, False
         if unit is None:
-            median = relation.aggregate(
-                [FunctionExpression("median", FunctionExpression("abs", number))]
-            ).fetchall()
+            median = relation.aggregate([FunctionExpression("median", FunctionExpression("abs", number))]).fetchall()
             size = float(median[0][0]) if median and median[0][0] is not None else 0.0
             unit = next((u for bound, u in _EPOCH_DETECTION if size < bound), "ns")
             detected = True
@@ -130,9 +137,7 @@ def _timestamp_expression(
                 naive,
                 TimestampReading(type_name, "text", text_format=ts_format),
             )
-        naive = FunctionExpression(
-            "regexp_matches", FunctionExpression("trim", col), ConstantExpression(_ZONE_SUFFIX)
-        )
+        naive = FunctionExpression("regexp_matches", FunctionExpression("trim", col), ConstantExpression(_ZONE_SUFFIX))
         return (
             FunctionExpression("trim", col).try_cast(T.TIMESTAMP_TZ),
             ~naive,
@@ -173,8 +178,7 @@ def open_telemetry(
     for canonical, source_name in chosen.items():
         if source_name not in types:
             raise InputError(
-                f"{files.label}: no column {source_name!r} for {canonical}; the columns are "
-                f"{', '.join(source_columns)}"
+                f"{files.label}: no column {source_name!r} for {canonical}; the columns are {', '.join(source_columns)}"
             )
     for canonical in REQUIRED_COLUMNS:
         if canonical not in chosen:

@@ -1,0 +1,89 @@
+"""Benchmark of `gapfinder profile` against a floor measured in the same run.
+
+For each size: generate demo telemetry, then alternate (floor, profile) runs, each in a fresh
+process, and print medians of the wall time, peak memory, and the ratios profile / floor and
+largest / smallest size. The floor is one bare DuckDB query that reads the same Parquet and counts
+transitions with a window function.
+"""
+
+from __future__ import annotations
+
+import argparse
+import shutil
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+FLOOR = """
+import duckdb, sys
+con = duckdb.connect()
+con.execute("SELECT e, n, count(*) FROM (SELECT event AS e, lead(event) OVER (PARTITION BY user_id ORDER BY ts) AS n "
+            "FROM read_parquet($f, hive_partitioning = true)) GROUP BY ALL", {"f": sys.argv[1]}).fetchall()
+"""
+
+
+def timed(cmd: list[str]) -> tuple[float, float]:
+    """(seconds, peak RSS in GB) of one child process."""
+    wrapped = ["/usr/bin/time", "-f", "%M", *cmd]
+    start = time.perf_counter()
+    done = subprocess.run(wrapped, capture_output=True, text=True, check=True)
+    seconds = time.perf_counter() - start
+    peak_kb = int(done.stderr.strip().splitlines()[-1])
+    return seconds, peak_kb / 1024 / 1024
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__)
+    parser.add_argument("--sizes", type=int, nargs="+", default=[1_000_000, 10_000_000])
+    parser.add_argument("--runs", type=int, default=3)
+    parser.add_argument("--threads", type=int, default=2)
+    args = parser.parse_args()
+    gapfinder = shutil.which("gapfinder") or sys.exit("install gapfinder first (pip install -e .)")
+    medians: dict[int, float] = {}
+    with tempfile.TemporaryDirectory() as tmp:
+        for size in args.sizes:
+            demo = Path(tmp) / f"demo{size}"
+            subprocess.run(
+                [gapfinder, "demo", "--out", str(demo), "--events", str(size), "--seed", "1"],
+                check=True,
+                capture_output=True,
+            )
+            glob = str(demo / "field" / "**" / "*.parquet")
+            floors, profiles = [], []
+            for i in range(args.runs):
+                floors.append(timed([sys.executable, "-c", FLOOR, glob]))
+                ws = Path(tmp) / f"ws{size}_{i}.duckdb"
+                profiles.append(
+                    timed(
+                        [
+                            gapfinder,
+                            "profile",
+                            str(demo / "field"),
+                            "-w",
+                            str(ws),
+                            "--threads",
+                            str(args.threads),
+                            "--format",
+                            "json",
+                        ]
+                    )
+                )
+                ws.unlink()
+            floor = statistics.median(s for s, _ in floors)
+            prof = statistics.median(s for s, _ in profiles)
+            peak = max(m for _, m in profiles)
+            medians[size] = prof
+            print(
+                f"{size:>11,} events  floor {floor:6.2f} s  profile {prof:6.2f} s  "
+                f"ratio {prof / floor:5.2f}x  profile peak {peak:4.2f} GB  (medians of {args.runs})"
+            )
+    if len(medians) > 1:
+        small, large = min(medians), max(medians)
+        print(f"scaling {large // small}x events -> {medians[large] / medians[small]:.2f}x time")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,46 @@
+"""The wheel ships every queries/*.sql file, and every query file is documented."""
+
+from __future__ import annotations
+
+import re
+import subprocess
+import sys
+import zipfile
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent
+QUERIES = sorted((ROOT / "queries").glob("*.sql"))
+
+
+def test_wheel_contains_every_query(tmp_path: Path) -> None:
+    pytest.importorskip("hatchling")
+    subprocess.run(
+        [sys.executable, "-m", "hatchling", "build", "-t", "wheel", "-d", str(tmp_path)],
+        cwd=ROOT,
+        check=True,
+        capture_output=True,
+    )
+    (wheel,) = tmp_path.glob("*.whl")
+    names = set(zipfile.ZipFile(wheel).namelist())
+    missing = [q.name for q in QUERIES if f"gapfinder/queries/{q.name}" not in names]
+    assert not missing and QUERIES
+
+
+@pytest.mark.parametrize("query", QUERIES, ids=lambda q: q.name)
+def test_query_file_opens_with_purpose_and_parameters(query: Path) -> None:
+    text = query.read_text()
+    header = "".join(line for line in text.splitlines(keepends=True) if line.startswith("--"))
+    assert text.startswith("-- "), "open with a comment saying what the query returns"
+    assert "Parameters" in header
+    for name in set(re.findall(r"\$([a-z_]+)", text)):
+        assert f"${name}" in header, f"${name} is bound but not named in the header"
+    body = "\n".join(line for line in text.splitlines() if not line.startswith("--"))
+    assert body.count(";") == 1, "one statement per file"
+
+
+def test_every_query_is_used() -> None:
+    source = "".join(p.read_text() for p in (ROOT / "gapfinder").rglob("*.py"))
+    unused = [q.stem for q in QUERIES if f'"{q.stem}"' not in source]
+    assert not unused
