@@ -77,6 +77,7 @@ def list_kpaths(
     max_k: int = 2,
     min_users: int = DEFAULT_MIN_USERS,
     limit: int | None = None,
+    total_sessions: int | None = None,
 ) -> Listing:
     """Contiguous paths of length min_k..max_k, most sessions first, privacy floor applied."""
     rows = fetch_dicts(
@@ -86,7 +87,7 @@ def list_kpaths(
         min_k=min_k,
         max_k=max_k,
         min_users=min_users,
-        total_sessions=_total_sessions(con),
+        total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
         limit=limit,
     )
     hidden = fetch_dicts(con, "count_kpaths_below_floor", min_k=min_k, max_k=max_k, min_users=min_users)[0]
@@ -94,7 +95,11 @@ def list_kpaths(
 
 
 def list_full_paths(
-    con: duckdb.DuckDBPyConnection, *, min_users: int = DEFAULT_MIN_USERS, limit: int | None = None
+    con: duckdb.DuckDBPyConnection,
+    *,
+    min_users: int = DEFAULT_MIN_USERS,
+    limit: int | None = None,
+    total_sessions: int | None = None,
 ) -> Listing:
     """Distinct complete paths, most sessions first, privacy floor applied."""
     rows = fetch_dicts(
@@ -102,7 +107,7 @@ def list_full_paths(
         "list_full_paths",
         names=feature_names(con),
         min_users=min_users,
-        total_sessions=_total_sessions(con),
+        total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
         limit=limit,
     )
     hidden = fetch_dicts(con, "count_full_paths_below_floor", min_users=min_users)[0]
@@ -110,9 +115,19 @@ def list_full_paths(
 
 
 def list_features(
-    con: duckdb.DuckDBPyConnection, *, min_users: int = DEFAULT_MIN_USERS, limit: int | None = None
+    con: duckdb.DuckDBPyConnection,
+    *,
+    min_users: int = DEFAULT_MIN_USERS,
+    limit: int | None = None,
+    total_sessions: int | None = None,
 ) -> Listing:
     """Features by occurrences with sessions and users, privacy floor applied."""
-    rows = fetch_dicts(con, "list_feature_usage", min_users=min_users, total_sessions=_total_sessions(con), limit=limit)
+    rows = fetch_dicts(
+        con,
+        "list_feature_usage",
+        min_users=min_users,
+        total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
+        limit=limit,
+    )
     hidden = fetch_dicts(con, "count_features_below_floor", min_users=min_users)[0]
     return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)

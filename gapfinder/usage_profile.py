@@ -11,7 +11,6 @@ import os
 from collections.abc import Callable, Sequence
 from dataclasses import asdict, dataclass, field
 from datetime import datetime
-from pathlib import Path
 from typing import Any
 
 import duckdb
@@ -196,9 +195,10 @@ def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_
     reading = json.loads(meta[0]) if meta else {}
     stats = fetch_dicts(con, "summarize_sessions")[0]
     names = feature_names(con)
-    features = list_features(con, min_users=min_users, limit=top)
-    transitions = list_kpaths(con, min_k=2, max_k=2, min_users=min_users, limit=top)
-    full_paths = list_full_paths(con, min_users=min_users, limit=top)
+    total = int(stats["session_count"] or 0)
+    features = list_features(con, min_users=min_users, limit=top, total_sessions=total)
+    transitions = list_kpaths(con, min_k=2, max_k=2, min_users=min_users, limit=top, total_sessions=total)
+    full_paths = list_full_paths(con, min_users=min_users, limit=top, total_sessions=total)
     distinct_paths = con.execute("SELECT count(*) FROM full_paths").fetchone()
     model = load_usage_model(con)
     accounts = fetch_dicts(con, "list_automated_users", names=names)
@@ -246,7 +246,3 @@ def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_
 def summary_to_json(summary: dict[str, Any]) -> str:
     """The summary as JSON text (stable key order)."""
     return json.dumps(summary, indent=2, sort_keys=True, default=str)
-
-
-def workspace_path(value: str | os.PathLike[str]) -> Path:
-    return Path(value)
