@@ -319,6 +319,119 @@ def profile(
     _render_summary(summary, output_format)
 
 
+def _parse_max_gap(_ctx: click.Context, _param: click.Parameter, value: str) -> int | None:
+    if value.strip().lower() in ("any", "none", "unbounded"):
+        return None
+    try:
+        gap = int(value)
+    except ValueError:
+        raise click.BadParameter(f"{value!r}: give a number of events (0 for contiguous) or 'any'") from None
+    if gap < 0:
+        raise click.BadParameter(f"{value!r}: give 0 or more, or 'any'")
+    return gap
+
+
+@cli.command()
+@workspace_option
+@click.option(
+    "--kind",
+    type=click.Choice(["features", "transitions", "kpaths", "patterns", "full"]),
+    default="transitions",
+    show_default=True,
+    help="transitions (START/END included), kpaths (contiguous runs of 3+ states), patterns (mined: "
+    "steps in order, other events allowed between), full (complete session paths) or features.",
+)
+@click.option(
+    "--min-support",
+    type=float,
+    help="Least sessions a row needs: a fraction of all sessions (below 1) or a count "
+    "[default: 0.01 for patterns, none otherwise].",
+)
+@click.option(
+    "--min-users",
+    default=5,
+    show_default=True,
+    type=click.IntRange(min=1),
+    help="Privacy floor: hide rows taken by fewer distinct users (the output says how many).",
+)
+@click.option(
+    "--max-length",
+    type=click.IntRange(min=1, max=64),
+    help="Longest pattern (events) or k-path (states) to list [default: 6 for patterns, all stored k-paths].",
+)
+@click.option(
+    "--min-length",
+    default=2,
+    show_default=True,
+    type=click.IntRange(min=1, max=64),
+    help="Shortest pattern to list (patterns only).",
+)
+@click.option(
+    "--max-gap",
+    default="2",
+    show_default=True,
+    metavar="N|any",
+    callback=_parse_max_gap,
+    help="Patterns: most other events allowed between two consecutive steps (0: contiguous; any: no bound).",
+)
+@click.option(
+    "--closed/--all-patterns",
+    default=True,
+    show_default=True,
+    help="Patterns: list only closed ones (no one-step-longer pattern containing it has the same sessions).",
+)
+@click.option("--top", default=50, show_default=True, type=click.IntRange(min=0), help="Rows to list (0: all of them).")
+@output_options
+def paths(
+    workspace: str,
+    kind: str,
+    min_support: float | None,
+    min_users: int,
+    max_length: int | None,
+    min_length: int,
+    max_gap: int | None,
+    closed: bool,
+    top: int,
+    output_format: str,
+) -> None:
+    """List the paths people take: transitions, k-paths, mined patterns or complete paths.
+
+    Each row gives the path, the sessions that contain it (support), distinct users and the share
+    of all sessions. `--kind patterns` mines the workspace's sessions for journeys whose steps occur
+    in order with detours allowed, and stores them for the later stages.
+    """
+    from gapfinder.patterns import MiningOptions, usage_paths
+    from gapfinder.workspace import Workspace
+
+    mining = MiningOptions(min_length=min_length, max_gap=max_gap, closed=closed)
+    # Listing only reads; mining writes the patterns table. A missing file is never created here.
+    read_only = kind != "patterns" or not os.path.exists(workspace)
+    with _progress(total=1) as step, Workspace(workspace, read_only=read_only) as ws:
+        step("mining patterns" if kind == "patterns" else f"listing {kind}")
+        result = usage_paths(
+            ws, kind, min_support=min_support, min_users=min_users, top=top, max_length=max_length, mining=mining
+        )
+    _render_paths(result, output_format)
+
+
+def _render_paths(result: dict[str, Any], output_format: str) -> None:
+    from gapfinder.report import render_paths
+
+    if output_format == "json":
+        _emit_json(result)
+    elif output_format == "csv":
+        extra = [k for k in ("occurrences", "error_rate", "closed") if any(k in r for r in result["rows"])]
+        header = ["path", "k", "sessions", "users", "share", *extra]
+        rows = [
+            (json.dumps(r["path"]), r["k"], r["sessions"], r["users"], r["share"], *(r.get(k) for k in extra))
+            for r in result["rows"]
+        ]
+        _emit_csv(header, rows)
+        click.echo(f"{result['suppressed']:,} rows held back: fewer than {result['min_users']} users", err=True)
+    else:
+        render_paths(result, _stdout_console())
+
+
 def _render_summary(summary: dict[str, Any], output_format: str) -> None:
     from gapfinder.report import render_profile, summary_rows
 

@@ -76,6 +76,7 @@ def list_kpaths(
     min_k: int = 2,
     max_k: int = 2,
     min_users: int = DEFAULT_MIN_USERS,
+    min_sessions: int = 1,
     limit: int | None = None,
     total_sessions: int | None = None,
 ) -> Listing:
@@ -87,10 +88,13 @@ def list_kpaths(
         min_k=min_k,
         max_k=max_k,
         min_users=min_users,
+        min_sessions=min_sessions,
         total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
         limit=limit,
     )
-    hidden = fetch_dicts(con, "count_kpaths_below_floor", min_k=min_k, max_k=max_k, min_users=min_users)[0]
+    hidden = fetch_dicts(
+        con, "count_kpaths_below_floor", min_k=min_k, max_k=max_k, min_users=min_users, min_sessions=min_sessions
+    )[0]
     return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)
 
 
@@ -98,6 +102,7 @@ def list_full_paths(
     con: duckdb.DuckDBPyConnection,
     *,
     min_users: int = DEFAULT_MIN_USERS,
+    min_sessions: int = 1,
     limit: int | None = None,
     total_sessions: int | None = None,
 ) -> Listing:
@@ -107,10 +112,11 @@ def list_full_paths(
         "list_full_paths",
         names=feature_names(con),
         min_users=min_users,
+        min_sessions=min_sessions,
         total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
         limit=limit,
     )
-    hidden = fetch_dicts(con, "count_full_paths_below_floor", min_users=min_users)[0]
+    hidden = fetch_dicts(con, "count_full_paths_below_floor", min_users=min_users, min_sessions=min_sessions)[0]
     return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)
 
 
@@ -118,6 +124,7 @@ def list_features(
     con: duckdb.DuckDBPyConnection,
     *,
     min_users: int = DEFAULT_MIN_USERS,
+    min_sessions: int = 1,
     limit: int | None = None,
     total_sessions: int | None = None,
 ) -> Listing:
@@ -126,8 +133,9 @@ def list_features(
         con,
         "list_feature_usage",
         min_users=min_users,
+        min_sessions=min_sessions,
         total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
         limit=limit,
     )
-    hidden = fetch_dicts(con, "count_features_below_floor", min_users=min_users)[0]
+    hidden = fetch_dicts(con, "count_features_below_floor", min_users=min_users, min_sessions=min_sessions)[0]
     return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)

@@ -7,6 +7,7 @@ Each file holds one statement and opens with a comment saying what it returns an
 from __future__ import annotations
 
 import functools
+import warnings
 from pathlib import Path
 from typing import Any
 
@@ -14,7 +15,7 @@ import duckdb
 
 from gapfinder.errors import QueryError
 
-__all__ = ["fetch_dicts", "load", "query_dir", "run"]
+__all__ = ["fetch_arrow", "fetch_dicts", "load", "query_dir", "run"]
 
 
 @functools.cache
@@ -53,3 +54,16 @@ def fetch_dicts(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> 
     cursor = run(con, name, **params)
     columns = [d[0] for d in cursor.description or []]
     return [dict(zip(columns, row, strict=True)) for row in cursor.fetchall()]
+
+
+def fetch_arrow(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> Any:
+    """Run a query and return its result as a pyarrow Table (columns go straight to numpy).
+
+    Used for the small aggregated tables that Python works on; DuckDB 2 notes that Arrow output of
+    an ``execute`` result is copied once, which is harmless at their size.
+    """
+    cursor = run(con, name, **params)
+    to_table = getattr(cursor, "to_arrow_table", None) or getattr(cursor, "fetch_arrow_table")  # noqa: B009
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message="Arrow output on a DB-API result", category=UserWarning)
+        return to_table()

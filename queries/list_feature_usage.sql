@@ -1,6 +1,7 @@
 -- Returns features with their occurrences, sessions containing them, distinct users and share of
 -- $total_sessions, most occurrences first; features under $min_users users are left out.
--- Reads kpaths (k = 1), features. Parameters: $min_users, $total_sessions, $limit (NULL for all).
+-- Reads kpaths (k = 1), features. Parameters: $min_users, $min_sessions (support floor), $total_sessions,
+-- $limit (NULL for all).
 SELECT
     f.event,
     k.occurrences,
@@ -9,6 +10,6 @@ SELECT
     k.sessions / greatest($total_sessions, 1)::DOUBLE AS share
 FROM kpaths AS k
 JOIN features AS f ON f.event_id = k.path[1]
-WHERE k.k = 1 AND k.users >= $min_users
+WHERE k.k = 1 AND k.users >= $min_users AND k.sessions >= $min_sessions
 ORDER BY k.occurrences DESC, f.event
 LIMIT $limit;

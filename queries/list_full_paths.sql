@@ -1,6 +1,7 @@
 -- Returns distinct complete session paths with at least $min_users distinct users, most sessions
 -- first, as lists of event names, with their share of $total_sessions and error rate.
--- Reads full_paths. Parameters: $names, $min_users, $total_sessions, $limit (NULL for all).
+-- Reads full_paths. Parameters: $names, $min_users, $min_sessions (support floor),
+-- $total_sessions, $limit (NULL for all).
 SELECT
     list_transform(path, lambda x: $names[x + 1]) AS path,
     sessions,
@@ -8,6 +9,6 @@ SELECT
     sessions / greatest($total_sessions, 1)::DOUBLE AS share,
     error_sessions / greatest(sessions, 1)::DOUBLE AS error_rate
 FROM full_paths
-WHERE sessions > 0 AND users >= $min_users
+WHERE sessions > 0 AND sessions >= $min_sessions AND users >= $min_users
 ORDER BY sessions DESC, path
 LIMIT $limit;

@@ -1,7 +1,8 @@
 -- Returns contiguous paths of length $min_k..$max_k (k = 2 are transitions) with at least
 -- $min_users distinct users, most sessions first, as lists of event names, with their share of
 -- $total_sessions. Reads kpaths. Parameters: $names (event names indexed by event id + 1),
--- $min_k, $max_k, $min_users, $total_sessions, $limit (NULL for all).
+-- $min_k, $max_k, $min_users, $min_sessions (support floor), $total_sessions,
+-- $limit (NULL for all).
 SELECT
     k,
     list_transform(path, lambda x: $names[x + 1]) AS path,
@@ -10,6 +11,6 @@ SELECT
     users,
     sessions / greatest($total_sessions, 1)::DOUBLE AS share
 FROM kpaths
-WHERE k BETWEEN $min_k AND $max_k AND users >= $min_users
+WHERE k BETWEEN $min_k AND $max_k AND users >= $min_users AND sessions >= $min_sessions
 ORDER BY sessions DESC, occurrences DESC, path
 LIMIT $limit;

@@ -31,3 +31,13 @@ def profiled(tmp_path: Path, shop_events: Path) -> Path:
     ws = tmp_path / "ws.duckdb"
     profile_telemetry([shop_events], ws, ProfileOptions(), min_users=1)
     return ws
+
+
+@pytest.fixture(scope="session")
+def sample_workspace(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The committed sample telemetry, profiled once per test session (do not write to it)."""
+    from tests.helpers import SAMPLE
+
+    ws = tmp_path_factory.mktemp("sample") / "sample.duckdb"
+    profile_telemetry([SAMPLE / "field"], ws, ProfileOptions())
+    return ws

@@ -13,7 +13,7 @@ from typing import Any
 from rich.console import Console
 from rich.table import Table
 
-__all__ = ["format_path", "render_profile", "summary_rows"]
+__all__ = ["format_path", "render_paths", "render_profile", "summary_rows"]
 
 ACCENT = "dark_cyan"
 MUTED = "grey50"
@@ -117,6 +117,52 @@ def render_profile(summary: dict[str, Any], console: Console) -> None:
             )
     else:
         console.print("automated traffic: none flagged")
+
+
+_KIND_TITLES = {
+    "features": "Features",
+    "transitions": "Transitions (START and END included)",
+    "kpaths": "Contiguous paths of 3 or more states",
+    "patterns": "Journeys: steps in this order, other events allowed between",
+    "full": "Complete session paths",
+}
+
+
+def render_paths(result: dict[str, Any], console: Console) -> None:
+    """Print a path listing (``gapfinder paths``) with what produced it and what was held back."""
+    kind = result["kind"]
+    rows = result["rows"]
+    columns: list[tuple[str, str]] = [("#", "right"), ("path", "left"), ("sessions", "right"), ("users", "right")]
+    columns.append(("share", "right"))
+    if kind in ("features", "transitions", "kpaths"):
+        columns.append(("occurrences", "right"))
+    if kind == "full":
+        columns.append(("error rate", "right"))
+    table = _table(_KIND_TITLES[kind], *columns)
+    for n, r in enumerate(rows, start=1):
+        cells = [str(n), format_path(r["path"]), f"{r['sessions']:,}", f"{r['users']:,}", _pct(r["share"])]
+        if kind in ("features", "transitions", "kpaths"):
+            cells.append(f"{r['occurrences']:,}")
+        if kind == "full":
+            cells.append(_pct(r["error_rate"]))
+        table.add_row(*cells)
+    total = result["total_sessions"]
+    footer = [
+        f"{len(rows):,} rows of {total:,} sessions' paths, at least {result['min_support_sessions']:,} sessions each"
+    ]
+    footer.append(f"{result['suppressed']:,} held back: fewer than {result['min_users']} users")
+    table.caption = " · ".join(footer)
+    table.caption_style = MUTED
+    console.print(table)
+    mining = result.get("mining")
+    if mining:
+        gap = mining["max_gap"]
+        gap_text = "any number of" if gap is None else f"at most {gap}"
+        console.print(
+            f"[{MUTED}]mined {mining['patterns_found']:,} {'closed ' if mining['closed'] else ''}patterns of "
+            f"{mining['min_length']}–{mining['max_length']} steps from {mining['distinct_paths']:,} distinct paths "
+            f"in {mining['seconds']:.1f} s; {gap_text} other events between steps; stored in the workspace[/]"
+        )
 
 
 def _print_paths(

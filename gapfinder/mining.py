@@ -1,0 +1,793 @@
+"""Sequential patterns with gaps: the journeys that hold across sessions even with detours.
+
+A pattern is a list of events; a session *contains* it when the events occur in that order,
+other events allowed in between (at most ``max_gap`` of them between two consecutive pattern
+steps when a gap bound is given, any number otherwise). The *support* of a pattern is the number
+of sessions that contain it, counted once per session however often it occurs.
+
+The miner is of the PrefixSpan family (Pei, Han et al. 2001): a depth-first growth of patterns
+by appending one event at a time, each pattern carrying its *projected database* — for every
+distinct session path that contains it, the positions where an occurrence can end. It works on
+the workspace's distinct paths with their session counts (multiplicities), on integer-encoded
+events, and keeps projections as index arrays in one arena that grows and shrinks with the
+depth of the search, so memory stays near (depth × events in distinct paths) and sequences are
+never copied. The search runs in a compiled kernel (numba); Python only prepares arrays.
+
+Preconditions: event ids are small non-negative integers; sequence weights are positive.
+
+Closed patterns: a pattern is *closed* when no pattern one step longer that contains it (an event
+added before, between or after its steps) has the same support. Without a gap bound this is the
+usual definition (no super-pattern of any length with the same support, because support can
+only fall as a pattern grows); with a gap bound support is no longer monotone under insertion
+in the middle, and the one-step definition is the one used.
+
+References
+----------
+J. Pei, J. Han, B. Mortazavi-Asl, H. Pinto, Q. Chen, U. Dayal, M.-C. Hsu, "PrefixSpan: Mining
+sequential patterns efficiently by prefix-projected pattern growth", Proc. ICDE 2001, 215–224.
+J. Wang, J. Han, "BIDE: Efficient mining of frequent closed sequences", Proc. ICDE 2004 (the
+closed-pattern definition).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from numba import njit
+
+from gapfinder.errors import ConfigError
+
+__all__ = [
+    "DEFAULT_MAX_PATTERNS",
+    "PatternSet",
+    "SequenceDatabase",
+    "mine_patterns",
+    "resolve_min_support",
+]
+
+DEFAULT_MAX_PATTERNS = 2_000_000
+MAX_LENGTH = 64
+
+_I64 = np.int64
+_I32 = np.int32
+
+
+@dataclass(frozen=True)
+class SequenceDatabase:
+    """Distinct sequences of integer events with their multiplicities, stored flat.
+
+    ``items[starts[i]:starts[i + 1]]`` is sequence i and ``weights[i]`` how many sessions took it.
+    ``user_ptr``/``user_ids`` (optional) list the distinct users of each sequence, so that the
+    miner can count distinct users per pattern exactly.
+    """
+
+    items: np.ndarray
+    starts: np.ndarray
+    weights: np.ndarray
+    user_ptr: np.ndarray | None = None
+    user_ids: np.ndarray | None = None
+
+    def __post_init__(self) -> None:
+        if len(self.starts) != len(self.weights) + 1:
+            raise ValueError("starts must have one entry more than weights")
+        if len(self.items) and int(self.items.min()) < 0:
+            raise ValueError("events must be non-negative integers")
+        if len(self.weights) and int(self.weights.min()) <= 0:
+            raise ValueError("weights must be positive")
+
+    @classmethod
+    def from_sequences(
+        cls, sequences: list[list[int]] | list[tuple[int, ...]], weights: list[int] | None = None
+    ) -> SequenceDatabase:
+        """Build from Python lists (for tests and small inputs)."""
+        lengths = np.array([len(s) for s in sequences], dtype=_I64)
+        starts = np.zeros(len(sequences) + 1, dtype=_I64)
+        np.cumsum(lengths, out=starts[1:])
+        flat = [x for s in sequences for x in s]
+        items = np.array(flat, dtype=_I32) if flat else np.zeros(0, dtype=_I32)
+        w = np.ones(len(sequences), dtype=_I64) if weights is None else np.asarray(weights, dtype=_I64)
+        return cls(items, starts, w)
+
+    @property
+    def sequence_count(self) -> int:
+        return len(self.weights)
+
+    @property
+    def session_count(self) -> int:
+        """Total weight: the number of sessions the distinct sequences stand for."""
+        return int(self.weights.sum())
+
+    @property
+    def item_count(self) -> int:
+        return int(self.items.max()) + 1 if len(self.items) else 0
+
+
+@dataclass
+class PatternSet:
+    """Mined patterns: one row per pattern, most sessions first.
+
+    ``events[i, :lengths[i]]`` is pattern i as event ids (the rest of the row is -1); ``sessions``
+    its support; ``users`` its distinct users (-1 when the database carried no users);
+    ``is_closed`` whether it is closed (False throughout when closure was not asked for).
+    """
+
+    events: np.ndarray
+    lengths: np.ndarray
+    sessions: np.ndarray
+    users: np.ndarray
+    is_closed: np.ndarray
+    parameters: dict[str, Any] = field(default_factory=dict)
+
+    def __len__(self) -> int:
+        return len(self.lengths)
+
+    @property
+    def paths(self) -> list[tuple[int, ...]]:
+        """Each pattern as a tuple of event ids."""
+        rows = self.events.tolist()
+        return [tuple(row[:n]) for row, n in zip(rows, self.lengths.tolist(), strict=True)]
+
+    def flat_events(self) -> tuple[np.ndarray, np.ndarray]:
+        """(values, offsets): the patterns' events concatenated, and where each pattern starts."""
+        width = self.events.shape[1] if self.events.ndim == 2 else 0
+        mask = np.arange(width)[None, :] < self.lengths[:, None]
+        offsets = np.zeros(len(self) + 1, dtype=np.int32)
+        np.cumsum(self.lengths, out=offsets[1:])
+        return self.events[mask].astype(np.int32), offsets
+
+    def as_dict(self) -> dict[tuple[int, ...], int]:
+        """{pattern: support}, convenient for comparisons."""
+        return dict(zip(self.paths, self.sessions.tolist(), strict=True))
+
+
+def resolve_min_support(value: float, session_count: int) -> int:
+    """A minimum support given as a fraction of sessions (below 1) or a count (1 or more).
+
+    Examples
+    --------
+    >>> resolve_min_support(0.01, 25_000)
+    250
+    >>> resolve_min_support(250, 25_000)
+    250
+    """
+    if value <= 0 or math.isnan(value):
+        raise ConfigError(f"--min-support {value:g}: give a fraction of sessions (0 < f < 1) or a count (1 or more)")
+    if value < 1:
+        return max(1, math.ceil(value * session_count))
+    if value != int(value):
+        raise ConfigError(f"--min-support {value:g}: a count of sessions must be a whole number")
+    return int(value)
+
+
+# --------------------------------------------------------------------------------------------
+# The compiled kernel. Projections are flat positions into ``items``; entries of one pattern are
+# in ascending order, hence grouped by sequence. Without a gap bound a pattern keeps one entry per
+# sequence (the end of its leftmost occurrence, which leaves the most room to grow); with a gap
+# bound it keeps every position where an occurrence obeying the bound can end, because a later
+# end may allow an extension that the earliest one does not.
+# --------------------------------------------------------------------------------------------
+
+
+@njit(cache=True, nogil=True)
+def _grow(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cover - compiled
+    size = buffer.shape[0]
+    while size < needed:
+        size *= 2
+    if size == buffer.shape[0]:
+        return buffer
+    bigger = np.empty(size, dtype=buffer.dtype)
+    bigger[: buffer.shape[0]] = buffer
+    return bigger
+
+
+@njit(cache=True, nogil=True)
+def _grow_rows(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cover - compiled
+    size = buffer.shape[0]
+    while size < needed:
+        size *= 2
+    if size == buffer.shape[0]:
+        return buffer
+    bigger = np.empty((size, buffer.shape[1]), dtype=buffer.dtype)
+    bigger[: buffer.shape[0]] = buffer
+    return bigger
+
+
+@njit(cache=True, nogil=True)
+def _scan(  # pragma: no cover - compiled
+    arena: np.ndarray,
+    lo: int,
+    hi: int,
+    is_root: bool,
+    items: np.ndarray,
+    starts: np.ndarray,
+    seq_of: np.ndarray,
+    weights: np.ndarray,
+    max_gap: int,
+    stamp: np.ndarray,
+    last_pos: np.ndarray,
+    visit: int,
+    support: np.ndarray,
+    entry_count: np.ndarray,
+    write_at: np.ndarray,
+    is_wanted: np.ndarray,
+    out: np.ndarray,
+    writing: bool,
+) -> int:
+    """One pass over a projection: count (or, when writing, emit) each child's entries.
+
+    Returns the visit counter after the pass (one visit per sequence, used to count a child once
+    per sequence and to drop duplicate end positions).
+    """
+    current = -1
+    gapped = max_gap >= 0
+    for idx in range(lo, hi):
+        e = arena[idx]
+        s = idx - lo if is_root else seq_of[e]
+        if s != current:
+            visit += 1
+            current = s
+        end = starts[s + 1]
+        stop = end if (is_root or not gapped) else min(end, e + 2 + max_gap)
+        for j in range(e + 1, stop):
+            x = items[j]
+            if stamp[x] != visit:
+                stamp[x] = visit
+                last_pos[x] = j
+                if writing:
+                    if is_wanted[x]:
+                        out[write_at[x]] = j
+                        write_at[x] += 1
+                else:
+                    support[x] += weights[s]
+                    entry_count[x] += 1
+            elif gapped and j > last_pos[x]:
+                last_pos[x] = j
+                if writing:
+                    if is_wanted[x]:
+                        out[write_at[x]] = j
+                        write_at[x] += 1
+                else:
+                    entry_count[x] += 1
+    return visit
+
+
+@njit(cache=True, nogil=True)
+def _heap_push(heap: np.ndarray, size: int, value: int) -> int:  # pragma: no cover - compiled
+    """Keep the ``len(heap)`` largest values seen in a min-heap; returns the new size."""
+    capacity = heap.shape[0]
+    if size < capacity:
+        i = size
+        heap[i] = value
+        while i > 0:
+            parent = (i - 1) // 2
+            if heap[parent] <= heap[i]:
+                break
+            heap[parent], heap[i] = heap[i], heap[parent]
+            i = parent
+        return size + 1
+    if value <= heap[0]:
+        return size
+    heap[0] = value
+    i = 0
+    while True:
+        left, right, smallest = 2 * i + 1, 2 * i + 2, i
+        if left < size and heap[left] < heap[smallest]:
+            smallest = left
+        if right < size and heap[right] < heap[smallest]:
+            smallest = right
+        if smallest == i:
+            break
+        heap[smallest], heap[i] = heap[i], heap[smallest]
+        i = smallest
+    return size
+
+
+@njit(cache=True, nogil=True)
+def _mine_kernel(  # pragma: no cover - compiled
+    items: np.ndarray,
+    starts: np.ndarray,
+    seq_of: np.ndarray,
+    weights: np.ndarray,
+    item_count: int,
+    min_support: int,
+    min_length: int,
+    max_length: int,
+    max_gap: int,
+    top_k: int,
+    check_closure: bool,
+    max_rows: int,
+    user_ptr: np.ndarray,
+    user_ids: np.ndarray,
+    user_count: int,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, int, bool]:
+    """Depth-first pattern growth. Returns rows (events, length, support, users), the row count
+    and whether ``max_rows`` stopped the search. With ``check_closure`` the children of patterns of
+    ``max_length`` are also returned (users = -2) so that closure can be decided afterwards.
+    """
+    seq_total = starts.shape[0] - 1
+    depth_cap = max_length + 1
+    width = depth_cap
+    arena = np.empty(max(1024, 2 * items.shape[0] + seq_total), dtype=np.int64)
+    top = 0
+
+    child_item = np.empty((depth_cap, item_count), dtype=np.int64)
+    child_support = np.empty((depth_cap, item_count), dtype=np.int64)
+    child_lo = np.empty((depth_cap, item_count), dtype=np.int64)
+    child_hi = np.empty((depth_cap, item_count), dtype=np.int64)
+    child_total = np.zeros(depth_cap, dtype=np.int64)
+    child_next = np.zeros(depth_cap, dtype=np.int64)
+    arena_mark = np.zeros(depth_cap + 1, dtype=np.int64)
+
+    stamp = np.full(item_count, -1, dtype=np.int64)
+    last_pos = np.zeros(item_count, dtype=np.int64)
+    support = np.zeros(item_count, dtype=np.int64)
+    entry_count = np.zeros(item_count, dtype=np.int64)
+    write_at = np.zeros(item_count, dtype=np.int64)
+    is_wanted = np.zeros(item_count, dtype=np.bool_)
+    visit = 0
+    user_stamp = np.full(max(user_count, 1), -1, dtype=np.int64)
+    node_no = 0
+
+    heap = np.empty(max(top_k, 1), dtype=np.int64)
+    heap_size = 0
+
+    pattern = np.zeros(width, dtype=np.int64)
+    out_items = np.full((1024, width), -1, dtype=np.int32)
+    out_len = np.empty(1024, dtype=np.int32)
+    out_support = np.empty(1024, dtype=np.int64)
+    out_users = np.empty(1024, dtype=np.int64)
+    rows = 0
+    stopped = False
+
+    # The root's projection: one virtual entry per sequence, just before its first event.
+    for s in range(seq_total):
+        arena[s] = starts[s] - 1
+    root_hi = seq_total
+    top = root_hi
+
+    level = 0
+    expand_lo = 0
+    expand_hi = root_hi
+    expand_root = True
+    expand_length = 0  # length of the pattern being expanded
+
+    while True:
+        if expand_hi >= 0:
+            # Expand the current node: its children go to level `level`.
+            threshold = min_support
+            if top_k > 0 and heap_size == top_k and heap[0] > threshold:
+                threshold = heap[0]
+            visit = _scan(
+                arena,
+                expand_lo,
+                expand_hi,
+                expand_root,
+                items,
+                starts,
+                seq_of,
+                weights,
+                max_gap,
+                stamp,
+                last_pos,
+                visit,
+                support,
+                entry_count,
+                write_at,
+                is_wanted,
+                arena,
+                False,
+            )
+            is_check_level = expand_length == max_length
+            n = 0
+            for x in range(item_count):
+                if entry_count[x] > 0 and support[x] >= threshold:
+                    child_item[level, n] = x
+                    child_support[level, n] = support[x]
+                    n += 1
+            if is_check_level:
+                # Children one step past max_length: recorded only to decide closure.
+                for c in range(n):
+                    if rows >= out_len.shape[0]:
+                        out_items = _grow_rows(out_items, rows + 1)
+                        out_items[rows:] = -1
+                        out_len = _grow(out_len, rows + 1)
+                        out_support = _grow(out_support, rows + 1)
+                        out_users = _grow(out_users, rows + 1)
+                    for d in range(expand_length):
+                        out_items[rows, d] = pattern[d]
+                    out_items[rows, expand_length] = child_item[level, c]
+                    out_len[rows] = expand_length + 1
+                    out_support[rows] = child_support[level, c]
+                    out_users[rows] = -2
+                    rows += 1
+                n = 0
+            if n > 0:
+                if top_k > 0:
+                    # Most supported first, so the top-k threshold rises early.
+                    order = np.argsort(-child_support[level, :n], kind="mergesort")
+                    sorted_items = child_item[level, :n][order].copy()
+                    sorted_support = child_support[level, :n][order].copy()
+                    child_item[level, :n] = sorted_items
+                    child_support[level, :n] = sorted_support
+                arena_mark[level] = top
+                needed = top
+                for c in range(n):
+                    x = child_item[level, c]
+                    child_lo[level, c] = needed
+                    write_at[x] = needed
+                    needed += entry_count[x]
+                    child_hi[level, c] = needed
+                    is_wanted[x] = True
+                arena = _grow(arena, needed)
+                visit = _scan(
+                    arena,
+                    expand_lo,
+                    expand_hi,
+                    expand_root,
+                    items,
+                    starts,
+                    seq_of,
+                    weights,
+                    max_gap,
+                    stamp,
+                    last_pos,
+                    visit,
+                    support,
+                    entry_count,
+                    write_at,
+                    is_wanted,
+                    arena,
+                    True,
+                )
+                for c in range(n):
+                    is_wanted[child_item[level, c]] = False
+                top = needed
+            else:
+                arena_mark[level] = top
+            for x in range(item_count):
+                support[x] = 0
+                entry_count[x] = 0
+            child_total[level] = n
+            child_next[level] = 0
+            expand_hi = -1
+            expand_root = False
+
+        # Visit the next child at this level, or go back up.
+        if child_next[level] >= child_total[level]:
+            top = arena_mark[level]
+            if level == 0:
+                break
+            level -= 1
+            continue
+        c = child_next[level]
+        child_next[level] += 1
+        sup = child_support[level, c]
+        threshold = min_support
+        if top_k > 0 and heap_size == top_k and heap[0] > threshold:
+            threshold = heap[0]
+        if sup < threshold:
+            if top_k > 0:
+                child_next[level] = child_total[level]  # sorted: the rest are smaller still
+            continue
+        length = level + 1
+        pattern[level] = child_item[level, c]
+        lo = child_lo[level, c]
+        hi = child_hi[level, c]
+        if length >= min_length:
+            if rows >= max_rows:
+                stopped = True
+                break
+            if rows >= out_len.shape[0]:
+                out_items = _grow_rows(out_items, rows + 1)
+                out_items[rows:] = -1
+                out_len = _grow(out_len, rows + 1)
+                out_support = _grow(out_support, rows + 1)
+                out_users = _grow(out_users, rows + 1)
+            for d in range(length):
+                out_items[rows, d] = pattern[d]
+            out_len[rows] = length
+            out_support[rows] = sup
+            users = -1
+            if user_count > 0:
+                users = 0
+                node_no += 1
+                previous = -1
+                for idx in range(lo, hi):
+                    s = seq_of[arena[idx]]
+                    if s == previous:
+                        continue
+                    previous = s
+                    for u in range(user_ptr[s], user_ptr[s + 1]):
+                        uid = user_ids[u]
+                        if user_stamp[uid] != node_no:
+                            user_stamp[uid] = node_no
+                            users += 1
+            out_users[rows] = users
+            rows += 1
+            if top_k > 0:
+                heap_size = _heap_push(heap, heap_size, sup)
+        if length < max_length or (check_closure and length == max_length):
+            level += 1
+            expand_lo = lo
+            expand_hi = hi
+            expand_root = False
+            expand_length = length
+
+    return out_items[:rows], out_len[:rows], out_support[:rows], out_users[:rows], rows, stopped
+
+
+@njit(cache=True, nogil=True)
+def _row_hash(row: np.ndarray, length: int, skip: int, support: int) -> np.int64:  # pragma: no cover
+    h = np.int64(-3750763034362895579)  # FNV-1a offset basis as a signed 64-bit value
+    for d in range(length):
+        if d == skip:
+            continue
+        h = (h ^ np.int64(row[d] + 1)) * np.int64(1099511628211)
+    h = (h ^ np.int64(support)) * np.int64(1099511628211)
+    return h
+
+
+@njit(cache=True, nogil=True)
+def _closed_flags(  # pragma: no cover - compiled
+    out_items: np.ndarray, out_len: np.ndarray, out_support: np.ndarray
+) -> np.ndarray:
+    """For each row: False when some row one step longer contains it with the same support.
+
+    Rows are hashed on (events, support); each longer row's one-event deletions are looked up
+    and confirmed event by event, so hash collisions cannot give a wrong answer.
+    """
+    n = out_len.shape[0]
+    closed = np.ones(n, dtype=np.bool_)
+    hashes = np.empty(n, dtype=np.int64)
+    for r in range(n):
+        hashes[r] = _row_hash(out_items[r], out_len[r], -1, out_support[r])
+    order = np.argsort(hashes, kind="mergesort")
+    sorted_hashes = hashes[order]
+    for q in range(n):
+        length = out_len[q]
+        if length < 2:
+            continue
+        for skip in range(length):
+            if skip > 0 and out_items[q, skip] == out_items[q, skip - 1]:
+                continue  # deleting either of two equal neighbours gives the same pattern
+            h = _row_hash(out_items[q], length, skip, out_support[q])
+            k = np.searchsorted(sorted_hashes, h)
+            while k < n and sorted_hashes[k] == h:
+                p = order[k]
+                k += 1
+                if out_len[p] != length - 1 or out_support[p] != out_support[q]:
+                    continue
+                same = True
+                t = 0
+                for d in range(length):
+                    if d == skip:
+                        continue
+                    if out_items[p, t] != out_items[q, d]:
+                        same = False
+                        break
+                    t += 1
+                if same:
+                    closed[p] = False
+    return closed
+
+
+def _sequence_of_position(db: SequenceDatabase) -> np.ndarray:
+    lengths = np.diff(db.starts)
+    return np.repeat(np.arange(db.sequence_count, dtype=_I32), lengths)
+
+
+def _run_kernel(
+    db: SequenceDatabase,
+    seq_of: np.ndarray,
+    *,
+    min_support: int,
+    min_length: int,
+    max_length: int,
+    max_gap: int,
+    top_k: int,
+    check_closure: bool,
+    max_rows: int,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    has_users = db.user_ptr is not None and db.user_ids is not None and len(db.user_ids) > 0
+    user_ptr = db.user_ptr if has_users else np.zeros(db.sequence_count + 1, dtype=_I64)
+    user_ids = db.user_ids if has_users else np.zeros(1, dtype=_I32)
+    user_count = int(user_ids.max()) + 1 if has_users else 0  # type: ignore[union-attr]
+    out_items, out_len, out_support, out_users, _rows, stopped = _mine_kernel(
+        np.ascontiguousarray(db.items, dtype=_I32),
+        np.ascontiguousarray(db.starts, dtype=_I64),
+        seq_of,
+        np.ascontiguousarray(db.weights, dtype=_I64),
+        max(db.item_count, 1),
+        min_support,
+        min_length,
+        max_length,
+        max_gap,
+        top_k,
+        check_closure,
+        max_rows,
+        np.ascontiguousarray(user_ptr, dtype=_I64),
+        np.ascontiguousarray(user_ids, dtype=_I32),
+        user_count,
+    )
+    if stopped:
+        raise ConfigError(
+            f"more than {max_rows:,} patterns qualify: raise --min-support, lower --max-length, "
+            "set a --max-gap or keep --closed on"
+        )
+    return out_items, out_len, out_support, out_users
+
+
+def mine_patterns(
+    db: SequenceDatabase,
+    *,
+    min_support: int = 1,
+    min_length: int = 1,
+    max_length: int = 6,
+    max_gap: int | None = None,
+    closed: bool = False,
+    top_k: int | None = None,
+    max_patterns: int = DEFAULT_MAX_PATTERNS,
+) -> PatternSet:
+    """Mine the patterns contained in at least ``min_support`` sessions.
+
+    Parameters
+    ----------
+    db:
+        The distinct session paths with their session counts (and optionally their users).
+    min_support:
+        Minimum number of sessions (weights) containing a pattern.
+    min_length, max_length:
+        Lengths of the patterns returned (events per pattern).
+    max_gap:
+        Most events allowed between two consecutive steps of a pattern; None for any number,
+        0 for contiguous runs only.
+    closed:
+        Return only closed patterns (see the module docstring).
+    top_k:
+        Return only the ``top_k`` patterns with the most sessions (ties broken by length, then by
+        event ids), found with a support threshold that rises during the search.
+    max_patterns:
+        Stop with a ConfigError rather than return more rows than this (pattern explosion).
+
+    Returns
+    -------
+    PatternSet sorted by sessions (descending), then length, then event ids.
+
+    Examples
+    --------
+    >>> db = SequenceDatabase.from_sequences([[0, 1, 2, 3, 4], [1, 1, 1, 3, 4], [2, 1, 2, 2, 0], [1, 1, 1, 2, 2]])
+    >>> found = mine_patterns(db, min_support=3, max_length=3)
+    >>> found.as_dict()[(1, 2)]
+    3
+    >>> sorted(p for p in mine_patterns(db, min_support=3, closed=True).paths)
+    [(1,), (1, 2), (1, 3, 4), (2,)]
+    """
+    if min_support < 1:
+        raise ConfigError(f"minimum support {min_support}: give at least 1 session")
+    if not 1 <= min_length <= max_length:
+        raise ConfigError(f"pattern lengths {min_length}..{max_length}: give 1 <= min length <= max length")
+    if max_length > MAX_LENGTH:
+        raise ConfigError(f"--max-length {max_length}: give {MAX_LENGTH} or less")
+    if max_gap is not None and max_gap < 0:
+        raise ConfigError(f"--max-gap {max_gap}: give 0 (contiguous) or more, or leave it unbounded")
+    if top_k is not None and top_k < 1:
+        raise ConfigError(f"top-k {top_k}: give at least 1")
+    gap = -1 if max_gap is None else int(max_gap)
+    parameters: dict[str, Any] = {
+        "min_support": min_support,
+        "min_length": min_length,
+        "max_length": max_length,
+        "max_gap": max_gap,
+        "closed": closed,
+        "top_k": top_k,
+    }
+    if db.sequence_count == 0 or len(db.items) == 0:
+        return _empty(parameters)
+    seq_of = _sequence_of_position(db)
+    run = dict(min_length=min_length, max_length=max_length, max_gap=gap, max_rows=max_patterns)
+
+    if not closed:
+        if top_k:
+            rows = _top_k_rows(db, seq_of, top_k=top_k, min_support=min_support, **run)
+        else:
+            rows = _run_kernel(db, seq_of, min_support=min_support, top_k=0, check_closure=False, **run)
+        result = _assemble(*rows, closed_flags=None, top_k=top_k)
+    else:
+        threshold = min_support
+        if top_k:
+            # The k-th support over all patterns bounds that of the k-th closed pattern from above;
+            # lower the threshold until k closed patterns qualify.
+            first = _top_k_rows(db, seq_of, top_k=top_k, min_support=min_support, **run)
+            threshold = max(min_support, _kth_support(first[2], top_k))
+        while True:
+            rows = _run_kernel(db, seq_of, min_support=threshold, top_k=0, check_closure=True, **run)
+            flags = _closed_flags(rows[0], rows[1], rows[2])
+            result = _assemble(*rows, closed_flags=flags, top_k=top_k)
+            if not top_k or len(result) >= top_k or threshold <= min_support:
+                break
+            threshold = max(min_support, threshold // 2)
+    result.parameters = parameters
+    return result
+
+
+def _top_k_rows(
+    db: SequenceDatabase,
+    seq_of: np.ndarray,
+    *,
+    top_k: int,
+    min_support: int,
+    min_length: int,
+    max_length: int,
+    max_gap: int,
+    max_rows: int,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Top-k rows by iterative deepening on pattern length.
+
+    The k-th support among patterns of at most L events is a lower bound for the k-th support
+    among longer ones, so each round starts from the previous round's bound and the deep search
+    never wanders with a low threshold. When a round finds no pattern of its full length above
+    the bound, no longer pattern can qualify (a pattern's prefix has at least its support) and
+    that round's rows are the answer.
+    """
+    seed = min_support
+    for length in range(min_length, max_length + 1):
+        rows = _run_kernel(
+            db,
+            seq_of,
+            min_support=seed,
+            top_k=top_k,
+            check_closure=False,
+            min_length=min_length,
+            max_length=length,
+            max_gap=max_gap,
+            max_rows=max_rows,
+        )
+        seed = max(seed, _kth_support(rows[2], top_k))
+        if length == max_length or not bool((rows[1] == length).any()):
+            return rows
+    raise AssertionError("unreachable")  # pragma: no cover
+
+
+def _kth_support(supports: np.ndarray, k: int) -> int:
+    if len(supports) < k:
+        return 0
+    return int(np.sort(supports)[::-1][k - 1])
+
+
+def _empty(parameters: dict[str, Any]) -> PatternSet:
+    return PatternSet(
+        np.zeros((0, 1), _I32), np.zeros(0, _I32), np.zeros(0, _I64), np.zeros(0, _I64), np.zeros(0, bool), parameters
+    )
+
+
+def _assemble(
+    out_items: np.ndarray,
+    out_len: np.ndarray,
+    out_support: np.ndarray,
+    out_users: np.ndarray,
+    *,
+    closed_flags: np.ndarray | None,
+    top_k: int | None,
+) -> PatternSet:
+    """Rows of the kernel → a sorted PatternSet (closure-check rows dropped)."""
+    keep = out_users != -2
+    if closed_flags is not None:
+        keep &= closed_flags
+    items, lengths, support, users = out_items[keep], out_len[keep], out_support[keep], out_users[keep]
+    is_closed = closed_flags[keep] if closed_flags is not None else np.zeros(len(lengths), dtype=bool)
+    # Sessions descending, then length, then the events themselves (lexsort's last key leads).
+    keys = [items[:, d] for d in range(items.shape[1] - 1, -1, -1)]
+    order = np.lexsort((*keys, lengths, -support)) if len(lengths) else np.zeros(0, dtype=_I64)
+    if top_k:
+        order = order[:top_k]
+    width = int(lengths.max()) if len(lengths) else 1
+    return PatternSet(
+        np.ascontiguousarray(items[order, :width]),
+        lengths[order].astype(_I32),
+        support[order].astype(_I64),
+        users[order].astype(_I64),
+        is_closed[order].astype(bool),
+    )

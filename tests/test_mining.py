@@ -1,0 +1,170 @@
+"""The miner against a brute-force enumeration and the ``prefixspan`` package, on random databases."""
+
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from gapfinder.errors import ConfigError
+from gapfinder.mining import SequenceDatabase, mine_patterns, resolve_min_support
+
+
+def brute_force(
+    db: list[list[int]], weights: list[int], min_support: int, max_length: int, max_gap: int | None
+) -> dict[tuple[int, ...], int]:
+    """Every subsequence of every sequence (gap bound applied), counted once per sequence."""
+    support: dict[tuple[int, ...], int] = {}
+    for seq, weight in zip(db, weights, strict=True):
+        found = set()
+        for length in range(1, min(max_length, len(seq)) + 1):
+            for pos in itertools.combinations(range(len(seq)), length):
+                if max_gap is not None and any(b - a - 1 > max_gap for a, b in itertools.pairwise(pos)):
+                    continue
+                found.add(tuple(seq[p] for p in pos))
+        for pattern in found:
+            support[pattern] = support.get(pattern, 0) + weight
+    return {p: s for p, s in support.items() if s >= min_support}
+
+
+def brute_force_closed(
+    db: list[list[int]], weights: list[int], min_support: int, max_length: int, max_gap: int | None
+) -> dict[tuple[int, ...], int]:
+    """Frequent patterns with no one-event-longer super-pattern of the same support."""
+    frequent = brute_force(db, weights, min_support, max_length + 1, max_gap)
+    closed = {}
+    for p, s in frequent.items():
+        if len(p) > max_length:
+            continue
+        longer = (q for q, t in frequent.items() if len(q) == len(p) + 1 and t == s)
+        if not any(any(q[:i] + q[i + 1 :] == p for i in range(len(q))) for q in longer):
+            closed[p] = s
+    return closed
+
+
+sequences = st.lists(st.lists(st.integers(0, 3), max_size=7), min_size=1, max_size=8)
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    db=sequences,
+    data=st.data(),
+    min_support=st.integers(1, 4),
+    max_length=st.integers(1, 5),
+    max_gap=st.sampled_from([None, 0, 1, 2]),
+)
+def test_frequent_and_closed_equal_brute_force(
+    db: list[list[int]], data: st.DataObject, min_support: int, max_length: int, max_gap: int | None
+) -> None:
+    weights = data.draw(st.lists(st.integers(1, 3), min_size=len(db), max_size=len(db)))
+    database = SequenceDatabase.from_sequences(db, weights)
+    found = mine_patterns(database, min_support=min_support, max_length=max_length, max_gap=max_gap)
+    assert found.as_dict() == brute_force(db, weights, min_support, max_length, max_gap)
+    closed = mine_patterns(database, min_support=min_support, max_length=max_length, max_gap=max_gap, closed=True)
+    assert closed.as_dict() == brute_force_closed(db, weights, min_support, max_length, max_gap)
+
+
+@settings(max_examples=150, deadline=None)
+@given(db=st.lists(st.lists(st.integers(0, 4), max_size=9), min_size=1, max_size=10), min_support=st.integers(1, 5))
+def test_frequent_and_closed_against_the_prefixspan_package(db: list[list[int]], min_support: int) -> None:
+    """Frequent sets must be equal. Closed sets: ours must be inside the package's, and every pattern
+    the package adds must have a one-event-longer super-pattern with the same support in the
+    package's own frequent output, so it is not closed by the definition (Wang & Han, BIDE,
+    ICDE 2004). The package's closure test looks for a common item after the *last* occurrence of
+    the pattern's last event and misses some forward extensions: for [[1, 0], [1, 0, 1]] it calls
+    [1] (2 sessions) closed although [1, 0] also has 2 sessions."""
+    prefixspan = pytest.importorskip("prefixspan")
+    ps = prefixspan.PrefixSpan(db)
+    database = SequenceDatabase.from_sequences(db)
+    theirs = {tuple(p): s for s, p in ps.frequent(min_support)}
+    assert mine_patterns(database, min_support=min_support, max_length=64).as_dict() == theirs
+    theirs_closed = {tuple(p): s for s, p in ps.frequent(min_support, closed=True)}
+    ours_closed = mine_patterns(database, min_support=min_support, max_length=64, closed=True).as_dict()
+    assert ours_closed.items() <= theirs_closed.items()
+    for pattern, support in theirs_closed.items() - ours_closed.items():
+        assert any(
+            len(q) == len(pattern) + 1 and t == support and any(q[:i] + q[i + 1 :] == pattern for i in range(len(q)))
+            for q, t in theirs.items()
+        ), f"{pattern} is closed but only the package says so"
+
+
+def test_prefixspan_package_closure_slip_is_real() -> None:
+    """The smallest case hypothesis found, kept as a named example."""
+    prefixspan = pytest.importorskip("prefixspan")
+    db = [[1, 0], [1, 0, 1]]
+    theirs = {tuple(p): s for s, p in prefixspan.PrefixSpan(db).frequent(2, closed=True)}
+    ours = mine_patterns(SequenceDatabase.from_sequences(db), min_support=2, max_length=64, closed=True).as_dict()
+    assert ours == {(1, 0): 2} == brute_force_closed(db, [1, 1], 2, 64, None)
+    assert theirs.get((1,)) == 2  # the package's extra, non-closed answer
+
+
+@settings(max_examples=100, deadline=None)
+@given(db=sequences, k=st.integers(1, 12), max_gap=st.sampled_from([None, 1]), closed=st.booleans())
+def test_top_k_is_the_k_best_of_the_full_result(db: list[list[int]], k: int, max_gap: int | None, closed: bool) -> None:
+    database = SequenceDatabase.from_sequences(db)
+    everything = mine_patterns(database, min_support=1, max_length=4, max_gap=max_gap, closed=closed)
+    best = mine_patterns(database, top_k=k, max_length=4, max_gap=max_gap, closed=closed)
+    assert len(best) == min(k, len(everything))
+    assert best.sessions.tolist() == everything.sessions.tolist()[: len(best)]
+    assert best.paths == everything.paths[: len(best)]  # same order: sessions, length, events
+
+
+def test_weights_count_sessions_and_users_are_distinct() -> None:
+    # two distinct paths; the first taken by users {0, 1} in 3 sessions, the second by {1, 2} in 2
+    db = SequenceDatabase(
+        items=np.array([5, 6, 7, 5, 7], dtype=np.int32),
+        starts=np.array([0, 3, 5], dtype=np.int64),
+        weights=np.array([3, 2], dtype=np.int64),
+        user_ptr=np.array([0, 2, 4], dtype=np.int64),
+        user_ids=np.array([0, 1, 1, 2], dtype=np.int32),
+    )
+    found = mine_patterns(db, min_support=1, max_length=3)
+    rows = {p: (int(s), int(u)) for p, s, u in zip(found.paths, found.sessions, found.users, strict=True)}
+    assert rows[(5, 7)] == (5, 3)  # both paths, users 0, 1, 2 counted once
+    assert rows[(5, 6)] == (3, 2)
+    assert rows[(5, 6, 7)] == (3, 2)
+    contiguous = mine_patterns(db, min_support=1, max_length=3, max_gap=0).as_dict()
+    assert contiguous[(5, 7)] == 2 and (5, 7) in contiguous
+
+
+def test_results_sorted_by_sessions_then_length_then_events() -> None:
+    db = SequenceDatabase.from_sequences([[1, 2, 3], [1, 2], [3, 1]])
+    found = mine_patterns(db, min_support=1, max_length=3)
+    keys = [(-s, len(p), p) for p, s in zip(found.paths, found.sessions.tolist(), strict=True)]
+    assert keys == sorted(keys)
+
+
+def test_explosion_stops_with_a_clear_error() -> None:
+    db = SequenceDatabase.from_sequences([list(range(12))] * 3)
+    with pytest.raises(ConfigError, match="raise --min-support"):
+        mine_patterns(db, min_support=1, max_length=12, max_patterns=1000)
+
+
+def test_empty_database_gives_no_patterns() -> None:
+    assert len(mine_patterns(SequenceDatabase.from_sequences([[], []]), min_support=1)) == 0
+
+
+@pytest.mark.parametrize(
+    ("value", "sessions", "expected"),
+    [(0.01, 25_000, 250), (0.5, 3, 2), (1, 10, 1), (250, 10, 250), (0.0001, 10, 1)],
+)
+def test_min_support_as_fraction_or_count(value: float, sessions: int, expected: int) -> None:
+    assert resolve_min_support(value, sessions) == expected
+
+
+@pytest.mark.parametrize("value", [0, -1, 2.5, float("nan")])
+def test_min_support_rejects_nonsense(value: float) -> None:
+    with pytest.raises(ConfigError, match="--min-support"):
+        resolve_min_support(value, 100)
+
+
+@pytest.mark.parametrize(
+    "kwargs",
+    [{"min_support": 0}, {"max_gap": -1}, {"min_length": 3, "max_length": 2}, {"max_length": 65}, {"top_k": 0}],
+)
+def test_bad_options_are_config_errors(kwargs: dict) -> None:
+    with pytest.raises(ConfigError):
+        mine_patterns(SequenceDatabase.from_sequences([[1, 2]]), **kwargs)
