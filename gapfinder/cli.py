@@ -92,6 +92,21 @@ def workspace_option(func: F) -> F:
     )(func)
 
 
+def min_users_option(what: str = "rows") -> Callable[[F], F]:
+    """The privacy floor shared by every command that lists paths."""
+
+    def decorate(func: F) -> F:
+        return click.option(
+            "--min-users",
+            default=5,
+            show_default=True,
+            type=click.IntRange(min=1),
+            help=f"Privacy floor: hide {what} taken by fewer distinct users (the output says how many).",
+        )(func)
+
+    return decorate
+
+
 def _emit_json(data: Any) -> None:
     click.echo(json.dumps(data, indent=2, sort_keys=True, default=str))
 
@@ -102,6 +117,28 @@ def _emit_csv(header: list[str], rows: list[tuple[Any, ...]]) -> None:
     writer.writerow(header)
     writer.writerows(rows)
     click.echo(buffer.getvalue(), nl=False)
+
+
+def _emit_result(
+    result: dict[str, Any],
+    output_format: str,
+    *,
+    table: str,
+    header: list[str],
+    rows: Callable[[], list[tuple[Any, ...]]],
+    csv_note: str | None = None,
+) -> None:
+    """JSON, CSV or the named rich renderer of gapfinder.report: the one output switch of every listing."""
+    if output_format == "json":
+        _emit_json(result)
+    elif output_format == "csv":
+        _emit_csv(header, rows())
+        if csv_note:
+            click.echo(csv_note, err=True)
+    else:
+        from gapfinder import report
+
+        getattr(report, table)(result, _stdout_console())
 
 
 class GapfinderGroup(click.Group):
@@ -254,13 +291,7 @@ def _parse_mapping(config: str | None, items: tuple[str, ...]) -> dict[str, str]
 @click.option(
     "--top", default=10, show_default=True, type=click.IntRange(min=1), help="Rows per listing in the summary."
 )
-@click.option(
-    "--min-users",
-    default=5,
-    show_default=True,
-    type=click.IntRange(min=1),
-    help="Privacy floor: hide paths taken by fewer distinct users.",
-)
+@min_users_option("paths")
 @click.option("--threads", type=click.IntRange(min=1), help="DuckDB threads (default: all cores).")
 @click.option("--memory-limit", metavar="SIZE", help="DuckDB memory limit, e.g. 4GB; larger work spills to disk.")
 @output_options
@@ -347,13 +378,7 @@ def _parse_max_gap(_ctx: click.Context, _param: click.Parameter, value: str) -> 
     help="Least sessions a row needs: a fraction of all sessions (below 1) or a count "
     "[default: 0.01 for patterns, none otherwise].",
 )
-@click.option(
-    "--min-users",
-    default=5,
-    show_default=True,
-    type=click.IntRange(min=1),
-    help="Privacy floor: hide rows taken by fewer distinct users (the output says how many).",
-)
+@min_users_option("rows")
 @click.option(
     "--max-length",
     type=click.IntRange(min=1, max=64),
@@ -415,21 +440,259 @@ def paths(
 
 
 def _render_paths(result: dict[str, Any], output_format: str) -> None:
-    from gapfinder.report import render_paths
-
-    if output_format == "json":
-        _emit_json(result)
-    elif output_format == "csv":
-        extra = [k for k in ("occurrences", "error_rate", "closed") if any(k in r for r in result["rows"])]
-        header = ["path", "k", "sessions", "users", "share", *extra]
-        rows = [
+    extra = [k for k in ("occurrences", "error_rate", "closed") if any(k in r for r in result["rows"])]
+    _emit_result(
+        result,
+        output_format,
+        table="render_paths",
+        header=["path", "k", "sessions", "users", "share", *extra],
+        rows=lambda: [
             (json.dumps(r["path"]), r["k"], r["sessions"], r["users"], r["share"], *(r.get(k) for k in extra))
             for r in result["rows"]
-        ]
-        _emit_csv(header, rows)
-        click.echo(f"{result['suppressed']:,} rows held back: fewer than {result['min_users']} users", err=True)
-    else:
-        render_paths(result, _stdout_console())
+        ],
+        csv_note=f"{result['suppressed']:,} rows held back: fewer than {result['min_users']} users",
+    )
+
+
+@cli.command()
+@click.argument("traces", nargs=-1, required=True)
+@workspace_option
+@click.option(
+    "--map",
+    "maps",
+    multiple=True,
+    metavar="CANONICAL=SOURCE",
+    help="For trace files: map test_id, step_no, ts or event to a source column; repeatable.",
+)
+@click.option(
+    "--steps-map",
+    type=click.Path(dir_okay=False),
+    help="For Gherkin: a YAML file mapping step phrases (regular expressions) to event names.",
+)
+@click.option(
+    "--aliases",
+    type=click.Path(dir_okay=False),
+    help="A YAML file mapping test step names to field event names (see `gapfinder align`).",
+)
+@click.option(
+    "--junit-property",
+    default="steps",
+    show_default=True,
+    help="For JUnit XML: the testcase property holding its steps as a JSON list.",
+)
+@output_options
+def suite(
+    traces: tuple[str, ...],
+    workspace: str,
+    maps: tuple[str, ...],
+    steps_map: str | None,
+    aliases: str | None,
+    junit_property: str,
+    output_format: str,
+) -> None:
+    """Read what the tests exercise and store it in the workspace.
+
+    TRACES are trace files (Parquet, CSV, NDJSON with test_id, step_no or ts, event), test
+    catalogs (.yaml), Gherkin .feature files, JUnit XML reports or OTLP/JSON traces, or folders of
+    them. Step names are matched to the field's event names; the ones that match none are listed.
+    """
+    from gapfinder.sources import parse_map_options
+    from gapfinder.suite import SuiteOptions, load_suite
+    from gapfinder.suite.traces import TRACE_COLUMNS
+    from gapfinder.workspace import Workspace
+
+    options = SuiteOptions(
+        mapping=parse_map_options(maps, allowed=TRACE_COLUMNS),
+        steps_map=steps_map,
+        aliases=aliases,
+        junit_property=junit_property,
+    )
+    with Workspace(workspace, read_only=not os.path.exists(workspace)) as ws:
+        summary = load_suite(ws, traces, options)
+    _emit_result(
+        summary,
+        output_format,
+        table="render_suite",
+        header=["test_id", "kind", "source", "steps", "unmapped_steps"],
+        rows=lambda: [
+            (t["test_id"], t["kind"], t["source"], t["steps"], t["unmapped_steps"]) for t in summary["tests"]
+        ],
+    )
+
+
+@cli.command()
+@workspace_option
+@click.option(
+    "--write",
+    "write_to",
+    type=click.Path(dir_okay=False),
+    help="Write the suggestions as an alias file to review and pass to `gapfinder suite --aliases`.",
+)
+@click.option(
+    "--min-score",
+    default=0.25,
+    show_default=True,
+    type=click.FloatRange(0, 1),
+    help="Suggest nothing below this similarity.",
+)
+@click.option("--aliases", type=click.Path(dir_okay=False), help="An alias file whose entries are kept when writing.")
+@output_options
+def align(workspace: str, write_to: str | None, min_score: float, aliases: str | None, output_format: str) -> None:
+    """Suggest field event names for test steps that match none.
+
+    Compares the stored suite's unmapped step names with the field's event names (TF-IDF over
+    character n-grams, cosine similarity, one-to-one assignment) and shows each suggestion with
+    its score. `--write` saves them as an alias file for a person to review.
+    """
+    from gapfinder.align import load_aliases as read_aliases
+    from gapfinder.align import suggest_for_workspace, write_aliases
+    from gapfinder.workspace import Workspace
+
+    with Workspace(workspace, read_only=True) as ws:
+        result = suggest_for_workspace(ws, min_score=min_score)
+    if write_to:
+        from gapfinder.align import Suggestion
+
+        existing = read_aliases(aliases) if aliases else None
+        suggestions = [Suggestion(r["step"], r["event"], r["score"]) for r in result["suggestions"]]
+        write_aliases(write_to, suggestions, existing=existing)
+        click.echo(
+            f"wrote {len(result['suggestions'])} suggestion(s) to {write_to}: review it, then pass --aliases", err=True
+        )
+    _emit_result(
+        result,
+        output_format,
+        table="render_alignment",
+        header=["step", "event", "score"],
+        rows=lambda: [(r["step"], r["event"], r["score"]) for r in result["suggestions"]],
+    )
+
+
+@cli.command()
+@workspace_option
+@click.option(
+    "--max-gap",
+    default=0,
+    show_default=True,
+    type=click.IntRange(min=0),
+    help="Lenient matching: steps a test may have between a path's items (0: strict only).",
+)
+@output_options
+def coverage(workspace: str, max_gap: int, output_format: str) -> None:
+    """How much of real usage the stored suite exercises, per metric, unweighted and weighted.
+
+    Metrics: features, transitions (START/END included), k-paths and mined patterns; each
+    unweighted (distinct items) and weighted by field occurrences, sessions and distinct users,
+    strict (contiguous) and lenient (`--max-gap`). Also what each test contributes uniquely.
+    """
+    from gapfinder.coverage import coverage_report
+    from gapfinder.workspace import Workspace
+
+    with Workspace(workspace, read_only=True) as ws:
+        result = coverage_report(ws, max_gap=max_gap)
+    keys = ["items", "exercised", "unweighted", "by_occurrences", "by_sessions", "by_users"]
+    _emit_result(
+        result,
+        output_format,
+        table="render_coverage",
+        header=["metric", "mode", *keys],
+        rows=lambda: [
+            (metric, mode, *(v[k] for k in keys))
+            for metric, modes in result["metrics"].items()
+            for mode, v in modes.items()
+        ],
+    )
+
+
+@cli.command()
+@workspace_option
+@click.option("--top", default=20, show_default=True, type=click.IntRange(min=1), help="Gaps to list.")
+@min_users_option("gaps")
+@click.option(
+    "--kind",
+    "kinds",
+    multiple=True,
+    type=click.Choice(["feature", "transition", "kpath", "pattern"]),
+    help="Candidate kinds to consider; repeatable [default: all].",
+)
+@click.option(
+    "--max-gap",
+    default=0,
+    show_default=True,
+    type=click.IntRange(min=0),
+    help="Steps a test may have between a path's items and still exercise it (0: contiguous).",
+)
+@output_options
+def gaps(workspace: str, top: int, min_users: int, kinds: tuple[str, ...], max_gap: int, output_format: str) -> None:
+    """The common paths no test exercises, ranked, with the evidence for each.
+
+    Each gap gives the path, sessions, distinct users, share of sessions with a 95 % Wilson
+    interval, error rate against the baseline, trend, the segments it concentrates on and a
+    one-line reason. Related gaps are folded under the best-ranked one. Run `gapfinder paths
+    --kind patterns` first to include mined journeys.
+    """
+    from gapfinder.gaps import GAP_KINDS, GapOptions, find_gaps
+    from gapfinder.workspace import Workspace
+
+    options = GapOptions(top=top, min_users=min_users, kinds=kinds or GAP_KINDS, max_gap=max_gap)
+    with Workspace(workspace, read_only=True) as ws:
+        result = find_gaps(ws, options)
+    fields = ["rank", "kind", "path", "sessions", "users", "share", "share_low", "share_high", "error_rate"]
+    fields += ["error_lift", "trend", "score", "folded", "reason"]
+
+    def cell(gap: dict[str, Any], key: str) -> Any:
+        if key == "path":
+            return json.dumps(gap["path"])
+        if key == "trend":
+            return gap["trend"]["label"]
+        return len(gap["folded"]) if key == "folded" else gap[key]
+
+    _emit_result(
+        result,
+        output_format,
+        table="render_gaps",
+        header=fields,
+        rows=lambda: [tuple(cell(g, k) for k in fields) for g in result["gaps"]],
+        csv_note=f"{result['suppressed']:,} candidates held back: fewer than {result['min_users']} users",
+    )
+
+
+@cli.command()
+@workspace_option
+@click.option(
+    "--max-share",
+    default=0.01,
+    show_default=True,
+    type=click.FloatRange(0, 1),
+    help="List tests whose journey is in at most this share of sessions.",
+)
+@click.option(
+    "--max-gap",
+    default=0,
+    show_default=True,
+    type=click.IntRange(min=0),
+    help="Other events a session may have between the test's steps (0: one contiguous run).",
+)
+@output_options
+def unused(workspace: str, max_share: float, max_gap: int, output_format: str) -> None:
+    """Tested paths the field rarely or never takes: candidates to run less often.
+
+    For each test, counts the sessions that take its journey (its steps in order) and lists the
+    tests under `--max-share`, rarest first, with their share of the suite's steps.
+    """
+    from gapfinder.gaps import unused_tests
+    from gapfinder.workspace import Workspace
+
+    with Workspace(workspace, read_only=True) as ws:
+        result = unused_tests(ws, max_share=max_share, max_gap=max_gap)
+    columns = ["test_id", "path", "sessions", "share", "suite_step_share", "reason"]
+    _emit_result(
+        result,
+        output_format,
+        table="render_unused",
+        header=columns,
+        rows=lambda: [tuple(json.dumps(r[c]) if c == "path" else r[c] for c in columns) for r in result["unused"]],
+    )
 
 
 def _render_summary(summary: dict[str, Any], output_format: str) -> None:

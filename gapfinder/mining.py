@@ -44,6 +44,7 @@ __all__ = [
     "DEFAULT_MAX_PATTERNS",
     "PatternSet",
     "SequenceDatabase",
+    "containing_sequences",
     "mine_patterns",
     "resolve_min_support",
 ]
@@ -69,6 +70,7 @@ class SequenceDatabase:
     weights: np.ndarray
     user_ptr: np.ndarray | None = None
     user_ids: np.ndarray | None = None
+    path_ids: np.ndarray | None = None  # the workspace's path_id of each sequence, when loaded from one
 
     def __post_init__(self) -> None:
         if len(self.starts) != len(self.weights) + 1:
@@ -572,6 +574,109 @@ def _closed_flags(  # pragma: no cover - compiled
                 if same:
                     closed[p] = False
     return closed
+
+
+@njit(cache=True, nogil=True)
+def _state_at(items: np.ndarray, lo: int, hi: int, j: int, framed: bool) -> int:  # pragma: no cover - compiled
+    """Event at position j of sequence items[lo:hi]; framed: position 0 is START (0), the last END (1)."""
+    if not framed:
+        return items[lo + j]
+    if j == 0:
+        return 0
+    if j == hi - lo + 1:
+        return 1
+    return items[lo + j - 1]
+
+
+@njit(cache=True, nogil=True)
+def _match_kernel(  # pragma: no cover - compiled
+    items: np.ndarray,
+    starts: np.ndarray,
+    pattern_items: np.ndarray,
+    pattern_starts: np.ndarray,
+    pattern_gaps: np.ndarray,
+    framed: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """(pattern index, sequence index) for every sequence that contains each pattern."""
+    seq_total = starts.shape[0] - 1
+    out_pattern = np.empty(1024, dtype=np.int64)
+    out_sequence = np.empty(1024, dtype=np.int64)
+    rows = 0
+    longest = 2
+    for s in range(seq_total):
+        longest = max(longest, starts[s + 1] - starts[s] + 2)
+    reach = np.zeros(longest, dtype=np.bool_)
+    nxt = np.zeros(longest, dtype=np.bool_)
+    for p in range(pattern_starts.shape[0] - 1):
+        a, b = pattern_starts[p], pattern_starts[p + 1]
+        gap = pattern_gaps[p]
+        is_framed = framed[p]
+        for s in range(seq_total):
+            lo, hi = starts[s], starts[s + 1]
+            n = hi - lo + (2 if is_framed else 0)
+            if n < b - a:
+                continue
+            any_end = False
+            for j in range(n):
+                reach[j] = _state_at(items, lo, hi, j, is_framed) == pattern_items[a]
+                any_end = any_end or reach[j]
+            for q in range(a + 1, b):
+                if not any_end:
+                    break
+                any_end = False
+                window = -1  # the last position from which the next step may still be reached
+                for j in range(n):
+                    nxt[j] = False
+                    if window >= j and _state_at(items, lo, hi, j, is_framed) == pattern_items[q]:
+                        nxt[j] = True
+                        any_end = True
+                    if reach[j]:
+                        window = n if gap < 0 else j + 1 + gap
+                for j in range(n):
+                    reach[j] = nxt[j]
+            if any_end:
+                if rows >= out_pattern.shape[0]:
+                    out_pattern = _grow(out_pattern, rows + 1)
+                    out_sequence = _grow(out_sequence, rows + 1)
+                out_pattern[rows] = p
+                out_sequence[rows] = s
+                rows += 1
+    return out_pattern[:rows], out_sequence[:rows]
+
+
+def containing_sequences(
+    db: SequenceDatabase, patterns: list[tuple[int, ...]], *, max_gaps: list[int | None], framed: list[bool]
+) -> tuple[np.ndarray, np.ndarray]:
+    """Which sequences contain which pattern: arrays (pattern index, sequence index).
+
+    ``max_gaps[i]`` bounds the events between consecutive steps of pattern i (0: contiguous, None:
+    any); with ``framed[i]`` each sequence is read as START (0) → events → END (1), so that
+    transitions and k-paths that begin or end a session can be matched.
+
+    Examples
+    --------
+    >>> db = SequenceDatabase.from_sequences([[2, 3, 4], [2, 4]])
+    >>> containing_sequences(db, [(2, 4), (0, 2, 4, 1)], max_gaps=[0, 0], framed=[False, True])
+    (array([0, 1]), array([1, 1]))
+    """
+    lengths = np.array([len(p) for p in patterns], dtype=np.int64)
+    pattern_starts = np.zeros(len(patterns) + 1, dtype=np.int64)
+    np.cumsum(lengths, out=pattern_starts[1:])
+    flat = np.array([e for p in patterns for e in p], dtype=np.int32) if patterns else np.zeros(0, np.int32)
+    gaps = np.array([-1 if g is None else int(g) for g in max_gaps], dtype=np.int64)
+    if len(patterns) == 0 or db.sequence_count == 0:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    if (lengths == 0).any():
+        raise ValueError("patterns must have at least one event")
+    result: tuple[np.ndarray, np.ndarray] = _match_kernel(
+        np.ascontiguousarray(db.items, dtype=_I32),
+        np.ascontiguousarray(db.starts, dtype=_I64),
+        flat,
+        pattern_starts,
+        gaps,
+        np.array(framed, dtype=np.bool_),
+    )
+    return result
 
 
 def _sequence_of_position(db: SequenceDatabase) -> np.ndarray:

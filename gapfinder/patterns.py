@@ -34,6 +34,7 @@ __all__ = [
     "list_patterns",
     "load_sequences",
     "mine_workspace",
+    "profile_included_automated",
     "usage_paths",
 ]
 
@@ -81,7 +82,7 @@ class MiningRun:
     parameters: dict[str, Any] = field(default_factory=dict)
 
 
-def _profile_included_automated(con: duckdb.DuckDBPyConnection) -> bool:
+def profile_included_automated(con: duckdb.DuckDBPyConnection) -> bool:
     row = run(con, "read_last_run_parameters", stage="profile").fetchone()
     return bool(json.loads(row[0]).get("include_automated")) if row else False
 
@@ -96,10 +97,10 @@ def load_sequences(con: duckdb.DuckDBPyConnection, *, with_users: bool = True) -
     offsets = path_column.offsets.to_numpy(zero_copy_only=False).astype(np.int64)
     starts = offsets - offsets[0] if len(offsets) else np.zeros(1, dtype=np.int64)
     weights = paths.column("sessions").to_numpy().astype(np.int64)
-    if not with_users or len(weights) == 0:
-        return SequenceDatabase(items, starts, weights)
     path_ids = paths.column("path_id").to_numpy().astype(np.int64)
-    pairs = fetch_arrow(con, "list_path_users", include_automated=_profile_included_automated(con))
+    if not with_users or len(weights) == 0:
+        return SequenceDatabase(items, starts, weights, path_ids=path_ids)
+    pairs = fetch_arrow(con, "list_path_users", include_automated=profile_included_automated(con))
     pair_paths = pairs.column("path_id").to_numpy().astype(np.int64)
     user_ids = pairs.column("user_no").to_numpy().astype(np.int32)
     sequence_of_pair = np.searchsorted(path_ids, pair_paths)
@@ -109,7 +110,7 @@ def load_sequences(con: duckdb.DuckDBPyConnection, *, with_users: bool = True) -
     sequence_of_pair, user_ids = sequence_of_pair[counted], user_ids[counted]
     user_ptr = np.zeros(len(path_ids) + 1, dtype=np.int64)
     np.cumsum(np.bincount(sequence_of_pair, minlength=len(path_ids)), out=user_ptr[1:])
-    return SequenceDatabase(items, starts, weights, user_ptr=user_ptr, user_ids=user_ids)
+    return SequenceDatabase(items, starts, weights, user_ptr=user_ptr, user_ids=user_ids, path_ids=path_ids)
 
 
 def _patterns_frame(patterns: PatternSet) -> pa.Table:

@@ -147,9 +147,8 @@ def render_paths(result: dict[str, Any], console: Console) -> None:
             cells.append(_pct(r["error_rate"]))
         table.add_row(*cells)
     total = result["total_sessions"]
-    footer = [
-        f"{len(rows):,} rows of {total:,} sessions' paths, at least {result['min_support_sessions']:,} sessions each"
-    ]
+    floor = result["min_support_sessions"]
+    footer = [f"{len(rows):,} rows from {total:,} sessions" + (f", each in {floor:,} or more" if floor > 1 else "")]
     footer.append(f"{result['suppressed']:,} held back: fewer than {result['min_users']} users")
     table.caption = " · ".join(footer)
     table.caption_style = MUTED
@@ -194,3 +193,173 @@ def _flatten(prefix: str, value: Any) -> Iterator[tuple[str, str]]:
 def summary_rows(summary: dict[str, Any]) -> list[tuple[str, str]]:
     """The summary as (key, value) pairs with dotted keys, for CSV output."""
     return list(_flatten("", summary))
+
+
+def _opt_pct(x: float | None) -> str:
+    return "—" if x is None else _pct(x)
+
+
+def render_suite(summary: dict[str, Any], console: Console) -> None:
+    """What `gapfinder suite` stored: tests, how step names resolved, what matched nothing."""
+    by = summary["steps_by_resolution"]
+    console.print(
+        f"[bold {ACCENT}]Test suite[/] · {summary['test_count']} tests, {summary['step_count']} steps "
+        f"({', '.join(summary['kinds'])}) · workspace {summary['workspace']}"
+    )
+    console.print("step names resolved: " + ", ".join(f"{n} {how}" for how, n in sorted(by.items())))
+    tests = _table("Tests", ("test", "left"), ("kind", "left"), ("steps", "right"), ("unmapped", "right"))
+    for t in summary["tests"]:
+        tests.add_row(t["test_id"], t["kind"], str(t["steps"]), str(t["unmapped_steps"]) if t["unmapped_steps"] else "")
+    console.print(tests)
+    if summary["unmapped_steps"]:
+        unmapped = _table(
+            "Step names that match no field event (see `gapfinder align`)",
+            ("step", "left"),
+            ("steps", "right"),
+            ("tests", "right"),
+        )
+        for r in summary["unmapped_steps"]:
+            unmapped.add_row(r["step"], str(r["step_count"]), str(r["test_count"]))
+        console.print(unmapped)
+    for reason, n in sorted(summary["skipped"].items()):
+        console.print(f"[yellow]skipped[/]: {n:,} {reason}")
+    if summary["ignored_phrases"]:
+        console.print(f"Gherkin steps ignored on purpose (mapped to null): {len(summary['ignored_phrases'])}")
+
+
+def render_alignment(result: dict[str, Any], console: Console) -> None:
+    """Suggested aliases with their similarity."""
+    table = _table(
+        f"Suggested events for {result['unmapped']} unmapped step name(s)",
+        ("step", "left"),
+        ("suggested event", "left"),
+        ("similarity", "right"),
+        ("used in tests", "right"),
+    )
+    for r in result["suggestions"]:
+        table.add_row(
+            r["step"], r["event"] or f"[{MUTED}]none above the threshold[/]", f"{r['score']:.2f}", str(r["tests"])
+        )
+    table.caption = (
+        "review before use: `gapfinder align --write aliases.yaml`, edit it, "
+        "then `gapfinder suite ... --aliases aliases.yaml`"
+    )
+    table.caption_style = MUTED
+    console.print(table)
+
+
+def render_coverage(result: dict[str, Any], console: Console) -> None:
+    """Coverage per metric (strict and lenient), then the tests that add the most on their own."""
+    console.print(
+        f"[bold {ACCENT}]Coverage of real usage[/] · {result['test_count']} tests against "
+        f"{result['sessions']:,} sessions · workspace {result['workspace']}"
+    )
+    lenient = result["max_gap"] > 0
+    columns = [("metric", "left"), ("exercised", "right"), ("of items", "right"), ("by occurrences", "right")]
+    columns += [("by sessions", "right"), ("by users", "right")]
+    if lenient:
+        columns.append((f"by sessions, gap ≤ {result['max_gap']}", "right"))
+    table = _table("Exercised share (strict: contiguous runs in a test)", *columns)
+    for metric, modes in result["metrics"].items():
+        strict = modes["strict"]
+        if metric == "patterns" and not result["patterns_mined"]:
+            continue
+        row = [
+            metric,
+            f"{strict['exercised']:,} / {strict['items']:,}",
+            _opt_pct(strict["unweighted"]),
+            _opt_pct(strict["by_occurrences"]),
+            _opt_pct(strict["by_sessions"]),
+            _opt_pct(strict["by_users"]),
+        ]
+        if lenient:
+            row.append(_opt_pct(modes["lenient"]["by_sessions"]))
+        table.add_row(*row)
+    notes = ["weighted: share of the items' field occurrences, sessions or users that falls on exercised items"]
+    if not result["patterns_mined"]:
+        notes.append("no mined patterns yet: run `gapfinder paths --kind patterns`")
+    table.caption = " · ".join(notes)
+    table.caption_style = MUTED
+    console.print(table)
+    tests = _table(
+        "What each test adds on its own (transitions no other test exercises)",
+        ("test", "left"),
+        ("transitions", "right"),
+        ("only this test", "right"),
+        ("their share of sessions", "right"),
+    )
+    for t in result.get("tests", [])[:15]:
+        tests.add_row(
+            t["test_id"],
+            str(t["exercised"]["transitions"]),
+            str(t["unique"]["transitions"]),
+            _pct(t["unique_session_share"]["transitions"]),
+        )
+    console.print(tests)
+
+
+def render_gaps(result: dict[str, Any], console: Console) -> None:
+    """The ranked gaps, each with its reason and what was folded under it."""
+    console.print(
+        f"[bold {ACCENT}]Untested paths people take[/] · {result['total_sessions']:,} sessions, "
+        f"{result['tests']} tests · baseline error rate {_pct(result['baseline_error_rate'])}"
+    )
+    table = _table(
+        "Gaps, most worth a test first",
+        ("#", "right"),
+        ("path", "left"),
+        ("kind", "left"),
+        ("sessions", "right"),
+        ("users", "right"),
+        ("share (95 % interval)", "right"),
+        ("errors", "right"),
+        ("trend", "left"),
+    )
+    for g in result["gaps"]:
+        interval = f"{_pct(g['share'])} ({100 * g['share_low']:.1f}–{100 * g['share_high']:.1f})"
+        lift = f" ({g['error_lift']:.1f}×)" if g["error_lift"] and g["risk"] > 1 else ""
+        table.add_row(
+            str(g["rank"]),
+            format_path(g["path"]),
+            g["kind"],
+            f"{g['sessions']:,}",
+            f"{g['users']:,}",
+            interval,
+            _pct(g["error_rate"]) + lift,
+            g["trend"]["label"],
+        )
+    table.caption = (
+        f"score: {result['score']} · {result['suppressed']:,} candidates held back: fewer than "
+        f"{result['min_users']} users"
+    )
+    table.caption_style = MUTED
+    console.print(table)
+    for g in result["gaps"]:
+        console.print(f"[bold]{g['rank']}.[/] {g['reason']}")
+        if g["folded"]:
+            shown = ", ".join(format_path(f["path"]) for f in g["folded"][:3])
+            more = f" and {len(g['folded']) - 3} more" if len(g["folded"]) > 3 else ""
+            console.print(f"   [{MUTED}]also untested in the same sessions: {shown}{more}[/]")
+
+
+def render_unused(result: dict[str, Any], console: Console) -> None:
+    """Tests whose journey the field rarely or never takes."""
+    table = _table(
+        f"Tests whose journey is in at most {_pct(result['max_share'])} of {result['total_sessions']:,} sessions",
+        ("test", "left"),
+        ("journey", "left"),
+        ("sessions", "right"),
+        ("share", "right"),
+        ("suite steps", "right"),
+    )
+    for r in result["unused"]:
+        table.add_row(
+            r["test_id"],
+            format_path(r["path"]),
+            f"{r['sessions']:,}",
+            f"{100 * r['share']:.2f} %",
+            _pct(r["suite_step_share"]),
+        )
+    table.caption = f"{len(result['unused'])} of {result['tests']} tests · candidates to run less often, not to delete"
+    table.caption_style = MUTED
+    console.print(table)

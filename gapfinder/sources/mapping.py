@@ -22,12 +22,12 @@ CANONICAL_COLUMNS: tuple[str, ...] = (
 REQUIRED_COLUMNS: tuple[str, ...] = ("user_id", "ts", "event")
 
 
-def _check_canonical(name: str, where: str) -> None:
-    if name not in CANONICAL_COLUMNS:
-        raise ConfigError(f"{where}: {name!r} is not a canonical column; use one of {', '.join(CANONICAL_COLUMNS)}")
+def _check_canonical(name: str, where: str, allowed: tuple[str, ...] = CANONICAL_COLUMNS) -> None:
+    if name not in allowed:
+        raise ConfigError(f"{where}: {name!r} is not a canonical column; use one of {', '.join(allowed)}")
 
 
-def parse_map_options(items: Iterable[str]) -> dict[str, str]:
+def parse_map_options(items: Iterable[str], *, allowed: tuple[str, ...] = CANONICAL_COLUMNS) -> dict[str, str]:
     """Parse repeated ``--map canonical=source`` options into a dictionary.
 
     Examples
@@ -41,7 +41,7 @@ def parse_map_options(items: Iterable[str]) -> dict[str, str]:
         canonical, source = canonical.strip(), source.strip()
         if not sep or not canonical or not source:
             raise ConfigError(f"--map {item!r}: write canonical=source, for example --map user_id=member")
-        _check_canonical(canonical, f"--map {item!r}")
+        _check_canonical(canonical, f"--map {item!r}", allowed)
         if canonical in mapping and mapping[canonical] != source:
             raise ConfigError(f"--map maps {canonical!r} twice ({mapping[canonical]!r}, {source!r})")
         mapping[canonical] = source

@@ -5,7 +5,6 @@ from __future__ import annotations
 import csv
 import io
 import json
-import shutil
 from pathlib import Path
 
 import pytest
@@ -16,13 +15,6 @@ from gapfinder.cli import cli
 
 def invoke(*args: str) -> object:
     return CliRunner().invoke(cli, list(args))
-
-
-@pytest.fixture
-def ws(tmp_path: Path, sample_workspace: Path) -> str:
-    target = tmp_path / "w.duckdb"
-    shutil.copy(sample_workspace, target)
-    return str(target)
 
 
 def test_patterns_json_has_lists_and_support(ws: str) -> None:

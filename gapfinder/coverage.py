@@ -1,0 +1,334 @@
+"""Coverage: how much of real usage the tests exercise, unweighted and weighted by usage.
+
+Each test is one path framed START → steps → END (a step that matches no field event stays in
+the path as an unknown state, so it breaks contiguity). A field item — a feature, a transition
+(START/END included), a contiguous k-path, a mined pattern — is *exercised* by a test when it
+occurs in the test's path:
+
+- strict: as a contiguous run (patterns: with the gap bound they were mined with);
+- lenient (``max_gap`` = G): as a subsequence with at most G other steps between consecutive
+  items (patterns: at most max(their own bound, G)).
+
+Coverage of a metric is reported unweighted (share of distinct items exercised) and weighted by
+usage: the share of the items' field occurrences, sessions and distinct users that falls on
+exercised items. Test paths are enumerated into packed integer codes with the same layout as the
+``kpaths`` table (``queries/create_kpaths.sql``), so matching millions of field k-paths is one
+vectorized membership test.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from gapfinder.errors import ConfigError
+from gapfinder.paths import feature_names, id_bits
+from gapfinder.sql import fetch_arrow, fetch_dicts
+from gapfinder.workspace import Workspace
+
+__all__ = [
+    "METRICS",
+    "FieldItems",
+    "TestPaths",
+    "compute_coverage",
+    "coverage_report",
+    "exercised_codes",
+    "exercised_masks",
+    "load_field_items",
+    "load_test_paths",
+    "occurs_in",
+    "pack_code",
+]
+
+METRICS = ("features", "transitions", "kpaths", "patterns")
+START, END, UNKNOWN = 0, 1, -1
+
+
+def pack_code(path: Sequence[int], bits: int) -> int:
+    """The integer the kpaths table uses for a contiguous run: k in the top 4 bits, then ids.
+
+    Examples
+    --------
+    >>> pack_code([0, 5], 4) == (2 << 60) | (0 << 4) | 5
+    True
+    """
+    code = len(path) << 60
+    for j, event in enumerate(path):
+        code |= int(event) << (bits * (len(path) - 1 - j))
+    return code
+
+
+def _index_runs(length: int, k: int, max_gap: int) -> Iterator[tuple[int, ...]]:
+    """Index tuples of k positions in a path of ``length`` with at most ``max_gap`` skipped between."""
+    if k == 1:
+        for i in range(length):
+            yield (i,)
+        return
+    for start in range(length):
+        stack: list[tuple[int, ...]] = [(start,)]
+        while stack:
+            chosen = stack.pop()
+            if len(chosen) == k:
+                yield chosen
+                continue
+            last = chosen[-1]
+            for nxt in range(last + 1, min(length, last + 2 + max_gap)):
+                stack.append((*chosen, nxt))
+
+
+def exercised_codes(framed: Sequence[int], *, max_k: int, max_gap: int, bits: int) -> set[int]:
+    """Packed codes of every run of 1..max_k states of a framed test path (gap bound applied).
+
+    Runs through an unknown step (-1) are left out: no field item contains one. Single states
+    are features only (START and END are not features).
+    """
+    codes: set[int] = set()
+    n = len(framed)
+    for k in range(1, max_k + 1):
+        for idx in _index_runs(n, k, max_gap if k > 1 else 0):
+            run = [framed[i] for i in idx]
+            if UNKNOWN in run or (k == 1 and run[0] in (START, END)):
+                continue
+            codes.add(pack_code(run, bits))
+    return codes
+
+
+def occurs_in(pattern: Sequence[int], path: Sequence[int], max_gap: int | None) -> bool:
+    """Whether ``pattern`` occurs in ``path`` in order with at most ``max_gap`` steps between
+    consecutive items (None: any number).
+
+    Examples
+    --------
+    >>> occurs_in([1, 3], [1, 2, 3], 1), occurs_in([1, 3], [1, 2, 3], 0)
+    (True, False)
+    """
+    if not pattern:
+        return True
+    if max_gap is None:
+        it = iter(path)
+        return all(any(x == e for x in it) for e in pattern)
+    ends = [i for i, x in enumerate(path) if x == pattern[0]]
+    for event in pattern[1:]:
+        ends = sorted({j for e in ends for j in range(e + 1, min(len(path), e + 2 + max_gap)) if path[j] == event})
+        if not ends:
+            return False
+    return bool(ends)
+
+
+@dataclass
+class TestPaths:
+    """The stored suite: test ids and their framed paths of event ids (-1 for unknown steps)."""
+
+    __test__ = False
+
+    test_ids: list[str]
+    framed: list[list[int]]
+
+
+@dataclass
+class FieldItems:
+    """Field items to be covered, one array per column (kpaths rows, then patterns rows)."""
+
+    k: np.ndarray
+    code: np.ndarray
+    paths: list[tuple[int, ...]]
+    occurrences: np.ndarray
+    sessions: np.ndarray
+    users: np.ndarray
+    bits: int
+    max_k: int
+    patterns: list[tuple[int, ...]] = field(default_factory=list)
+    pattern_sessions: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64))
+    pattern_users: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64))
+    pattern_gap: int | None = None
+
+
+def load_test_paths(ws: Workspace) -> TestPaths:
+    ws.require("suite_tests", hint="run `gapfinder suite TRACES... -w ...` first")
+    rows = ws.con.execute("SELECT test_id, path FROM suite_tests ORDER BY test_id").fetchall()
+    if not rows:
+        raise ConfigError(f"workspace {ws.path}: the stored suite has no tests; run `gapfinder suite` with some")
+    return TestPaths([r[0] for r in rows], [[START, *list(r[1]), END] for r in rows])
+
+
+def load_field_items(ws: Workspace) -> FieldItems:
+    """kpaths (k = 1..K) and, when mined, the stored patterns with their mining gap bound."""
+    ws.require("kpaths", "features", hint="run `gapfinder profile TELEMETRY -w ...` first")
+    con = ws.con
+    bits = id_bits(len(feature_names(con)))
+    table = fetch_arrow(con, "list_kpath_items")
+    k = table.column("k").to_numpy().astype(np.int64)
+    items = FieldItems(
+        k=k,
+        code=table.column("code").to_numpy().astype(np.uint64),
+        paths=[tuple(p) for p in table.column("path").to_pylist()],
+        occurrences=table.column("occurrences").to_numpy().astype(np.int64),
+        sessions=table.column("sessions").to_numpy().astype(np.int64),
+        users=table.column("users").to_numpy().astype(np.int64),
+        bits=bits,
+        max_k=int(k.max()) if len(k) else 2,
+    )
+    if ws.has_table("patterns"):
+        rows = con.execute("SELECT path, sessions, users FROM patterns ORDER BY pattern_no").fetchall()
+        meta = con.execute("SELECT value FROM meta WHERE key = 'patterns_parameters'").fetchone()
+        items.patterns = [tuple(r[0]) for r in rows]
+        items.pattern_sessions = np.array([r[1] for r in rows], dtype=np.int64)
+        items.pattern_users = np.array([r[2] for r in rows], dtype=np.int64)
+        items.pattern_gap = json.loads(meta[0]).get("max_gap") if meta else None
+    return items
+
+
+def _exercised_by_test(tests: TestPaths, items: FieldItems, max_gap: int) -> list[np.ndarray]:
+    """For each test, the sorted unique packed codes of the runs it exercises."""
+    out = []
+    for framed in tests.framed:
+        codes = exercised_codes(framed, max_k=items.max_k, max_gap=max_gap, bits=items.bits)
+        out.append(np.array(sorted(codes), dtype=np.uint64))
+    return out
+
+
+def _pattern_hits(tests: TestPaths, items: FieldItems, gap: int | None) -> np.ndarray:
+    """(tests × patterns) booleans: which test exercises which stored pattern."""
+    hits = np.zeros((len(tests.framed), len(items.patterns)), dtype=bool)
+    for t, framed in enumerate(tests.framed):
+        for p, pattern in enumerate(items.patterns):
+            hits[t, p] = occurs_in(pattern, framed, gap)
+    return hits
+
+
+def _summary(mask: np.ndarray, occurrences: np.ndarray | None, sessions: np.ndarray, users: np.ndarray) -> dict:
+    def share(weights: np.ndarray) -> float | None:
+        total = float(weights.sum())
+        return float(weights[mask].sum()) / total if total else None
+
+    total = len(mask)
+    exercised = int(mask.sum())
+    return {
+        "items": total,
+        "exercised": exercised,
+        "unweighted": exercised / total if total else None,
+        "by_occurrences": share(occurrences) if occurrences is not None else None,
+        "by_sessions": share(sessions),
+        "by_users": share(users),
+    }
+
+
+def _metric_masks(
+    items: FieldItems, codes_by_test: list[np.ndarray], pattern_hits: np.ndarray
+) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+    """{metric: (row selector over items, exercised mask over those rows)}; patterns separately."""
+    every = np.unique(np.concatenate(codes_by_test)) if codes_by_test else np.zeros(0, np.uint64)
+    exercised = np.isin(items.code, every)
+    selectors = {"features": items.k == 1, "transitions": items.k == 2, "kpaths": items.k >= 3}
+    out = {m: (sel, exercised[sel]) for m, sel in selectors.items()}
+    hit = pattern_hits.any(axis=0) if pattern_hits.size else np.zeros(len(items.patterns), bool)
+    out["patterns"] = (np.ones(len(items.patterns), bool), hit)
+    return out
+
+
+def exercised_masks(tests: TestPaths, items: FieldItems, *, max_gap: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    """(over kpaths rows, over patterns): whether any test exercises the item, strict when max_gap is 0."""
+    codes = _exercised_by_test(tests, items, max_gap)
+    every = np.unique(np.concatenate(codes)) if codes else np.zeros(0, np.uint64)
+    gap = items.pattern_gap if max_gap == 0 or items.pattern_gap is None else max(items.pattern_gap, max_gap)
+    hits = _pattern_hits(tests, items, gap)
+    pattern_mask = np.asarray(hits.any(axis=0) if hits.size else np.zeros(len(items.patterns), bool), dtype=bool)
+    kpath_mask: np.ndarray = np.isin(items.code, every)
+    return kpath_mask, pattern_mask
+
+
+def compute_coverage(tests: TestPaths, items: FieldItems, *, max_gap: int = 0, per_test: bool = True) -> dict[str, Any]:
+    """Coverage of every metric, strict and lenient, and what each test contributes uniquely.
+
+    Returns a dictionary: ``metrics`` (metric → {strict, lenient} → items, exercised, unweighted,
+    by_occurrences, by_sessions, by_users) and ``tests`` (per test: items exercised per metric,
+    items only it exercises and their share of sessions).
+    """
+    if max_gap < 0:
+        raise ConfigError(f"--max-gap {max_gap}: give 0 (strict only) or more")
+    lenient_pattern_gap = None if items.pattern_gap is None else max(items.pattern_gap, max_gap)
+    strict_codes = _exercised_by_test(tests, items, 0)
+    lenient_codes = strict_codes if max_gap == 0 else _exercised_by_test(tests, items, max_gap)
+    strict_patterns = _pattern_hits(tests, items, items.pattern_gap)
+    lenient_patterns = (
+        strict_patterns
+        if lenient_pattern_gap == items.pattern_gap
+        else _pattern_hits(tests, items, lenient_pattern_gap)
+    )
+    metrics: dict[str, Any] = {}
+    for mode, codes, hits in (("strict", strict_codes, strict_patterns), ("lenient", lenient_codes, lenient_patterns)):
+        for metric, (selector, mask) in _metric_masks(items, codes, hits).items():
+            if metric == "patterns":
+                summary = _summary(mask, None, items.pattern_sessions, items.pattern_users)
+            else:
+                summary = _summary(mask, items.occurrences[selector], items.sessions[selector], items.users[selector])
+            metrics.setdefault(metric, {})[mode] = summary
+    result: dict[str, Any] = {
+        "max_gap": max_gap,
+        "pattern_gap": items.pattern_gap,
+        "patterns_mined": bool(items.patterns),
+        "metrics": metrics,
+        "test_count": len(tests.test_ids),
+    }
+    if per_test:
+        result["tests"] = _contributions(tests, items, strict_codes, strict_patterns)
+    return result
+
+
+def _contributions(
+    tests: TestPaths, items: FieldItems, codes_by_test: list[np.ndarray], pattern_hits: np.ndarray
+) -> list[dict[str, Any]]:
+    """Per test: items exercised, items no other test exercises, and those items' share of sessions.
+
+    Works on each test's own codes looked up in the sorted item codes, so memory grows with the
+    suite, not with tests × field items.
+    """
+    totals = {
+        "features": float(items.sessions[items.k == 1].sum()),
+        "transitions": float(items.sessions[items.k == 2].sum()),
+        "kpaths": float(items.sessions[items.k >= 3].sum()),
+    }
+    all_codes = np.concatenate(codes_by_test) if codes_by_test else np.zeros(0, np.uint64)
+    distinct, owner_count = np.unique(all_codes, return_counts=True)
+    single = distinct[owner_count == 1]
+    pattern_owners = pattern_hits.sum(axis=0) if pattern_hits.size else np.zeros(0, np.int64)
+    rows = []
+    for t, test_id in enumerate(tests.test_ids):
+        codes = codes_by_test[t]
+        at = np.minimum(np.searchsorted(items.code, codes), max(len(items.code) - 1, 0))
+        found = items.code[at] == codes if len(items.code) else np.zeros(len(codes), bool)
+        index = at[found]
+        only = np.isin(codes[found], single)
+        row: dict[str, Any] = {"test_id": test_id, "exercised": {}, "unique": {}, "unique_session_share": {}}
+        ks = items.k[index]
+        for metric, in_metric in (("features", ks == 1), ("transitions", ks == 2), ("kpaths", ks >= 3)):
+            row["exercised"][metric] = int(in_metric.sum())
+            row["unique"][metric] = int((in_metric & only).sum())
+            unique_sessions = float(items.sessions[index[in_metric & only]].sum())
+            row["unique_session_share"][metric] = unique_sessions / totals[metric] if totals[metric] else 0.0
+        if len(items.patterns):
+            mine = pattern_hits[t]
+            only_p = mine & (pattern_owners == 1)
+            total_p = float(items.pattern_sessions.sum())
+            row["exercised"]["patterns"] = int(mine.sum())
+            row["unique"]["patterns"] = int(only_p.sum())
+            share = float(items.pattern_sessions[only_p].sum()) / total_p if total_p else 0.0
+            row["unique_session_share"]["patterns"] = share
+        rows.append(row)
+    rows.sort(key=lambda r: (-r["unique_session_share"]["transitions"], -r["unique"]["transitions"], r["test_id"]))
+    return rows
+
+
+def coverage_report(ws: Workspace, *, max_gap: int = 0) -> dict[str, Any]:
+    """Coverage of the stored suite against the workspace's usage profile (and mined patterns)."""
+    tests = load_test_paths(ws)
+    items = load_field_items(ws)
+    result = compute_coverage(tests, items, max_gap=max_gap)
+    result["workspace"] = str(ws.path)
+    totals = fetch_dicts(ws.con, "summarize_sessions")[0]
+    result["sessions"] = int(totals["session_count"] or 0)
+    return result

@@ -1,0 +1,397 @@
+"""Gaps: the common paths no test exercises, ranked and explained with evidence.
+
+Candidates are unexercised features, unexercised transitions (START/END included), *frontier*
+k-paths (unexercised, while the path one step shorter at either end is exercised: the smallest new
+combination a test would have to add) and unexercised mined patterns. Each candidate that passes
+the privacy floor gets its evidence from the sessions that contain it:
+
+- ``share``: sessions with the path / all sessions, with a Wilson score interval (95 %);
+- ``error_rate``: sessions with the path that had an error, against the baseline of all sessions;
+- ``trend``: its share in the recent half of the window against the earlier half;
+- ``segments``: app versions or platforms where it is at least 1.5 times as common as overall.
+
+Score = lower bound of the share's interval × risk, where risk is the lower bound of the Wilson
+interval of the path's error rate divided by the baseline error rate, kept between 1 and 4 — a
+path's errors only raise its rank when they are unlikely to be chance. Ranked by score; a gap whose
+path extends a higher-ranked gap's path, or is contained in one with nearly the same sessions
+(within 10 %), is folded under it rather than listed again.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pyarrow as pa
+
+from gapfinder.coverage import (
+    FieldItems,
+    TestPaths,
+    exercised_masks,
+    load_field_items,
+    load_test_paths,
+    occurs_in,
+)
+from gapfinder.errors import ConfigError
+from gapfinder.mining import containing_sequences
+from gapfinder.paths import feature_names
+from gapfinder.patterns import load_sequences, profile_included_automated
+from gapfinder.privacy import DEFAULT_MIN_USERS
+from gapfinder.sql import fetch_dicts
+from gapfinder.stats import wilson_interval
+from gapfinder.workspace import Workspace
+
+__all__ = ["GAP_KINDS", "GapOptions", "find_gaps", "unused_tests"]
+
+GAP_KINDS = ("feature", "transition", "kpath", "pattern")
+MAX_RISK = 4.0
+SEGMENT_LIFT = 1.5
+FOLD_TOLERANCE = 0.10
+
+
+@dataclass(frozen=True)
+class GapOptions:
+    """What counts as a gap and how many to list.
+
+    max_gap: steps a test may have between a path's items and still exercise it (0: contiguous).
+    top: gaps to list after folding. min_users: privacy floor. kinds: candidate kinds to consider.
+    pool: candidates (most sessions first) whose evidence is computed before ranking.
+    """
+
+    max_gap: int = 0
+    top: int = 20
+    min_users: int = DEFAULT_MIN_USERS
+    kinds: tuple[str, ...] = GAP_KINDS
+    pool: int = 300
+    confidence: float = 0.95
+
+    def __post_init__(self) -> None:
+        unknown = [k for k in self.kinds if k not in GAP_KINDS]
+        if unknown:
+            raise ConfigError(f"--kind {', '.join(unknown)}: give one of {', '.join(GAP_KINDS)}")
+        if self.max_gap < 0:
+            raise ConfigError(f"--max-gap {self.max_gap}: give 0 or more")
+        if self.top < 1:
+            raise ConfigError(f"--top {self.top}: give 1 or more")
+
+
+@dataclass
+class _Candidate:
+    kind: str
+    path: tuple[int, ...]
+    sessions: int
+    users: int
+    framed: bool
+    gap: int | None
+
+
+def _frontier(items: FieldItems, exercised: np.ndarray) -> np.ndarray:
+    """Rows of unexercised k-paths (k >= 3) whose prefix and suffix one step shorter are exercised."""
+    bits = np.uint64(items.bits)
+    k = items.k.astype(np.uint64)
+    ids = items.code & np.uint64((1 << 60) - 1)
+    shorter = (k - np.uint64(1)) << np.uint64(60)
+    prefix = shorter | (ids >> bits)
+    suffix_mask = (np.uint64(1) << (bits * (k - np.uint64(1)))) - np.uint64(1)
+    suffix = shorter | (ids & suffix_mask)
+    exercised_codes = items.code[exercised]
+    return (items.k >= 3) & ~exercised & np.isin(prefix, exercised_codes) & np.isin(suffix, exercised_codes)
+
+
+def _candidates(
+    items: FieldItems, exercised: np.ndarray, pattern_exercised: np.ndarray, kinds: tuple[str, ...]
+) -> list[_Candidate]:
+    out: list[_Candidate] = []
+    selectors = {
+        "feature": (items.k == 1) & ~exercised,
+        "transition": (items.k == 2) & ~exercised,
+        "kpath": _frontier(items, exercised),
+    }
+    for kind, selector in selectors.items():
+        if kind not in kinds:
+            continue
+        for row in np.flatnonzero(selector):
+            out.append(_Candidate(kind, items.paths[row], int(items.sessions[row]), int(items.users[row]), True, 0))
+    if "pattern" in kinds:
+        for row in np.flatnonzero(~pattern_exercised):
+            out.append(
+                _Candidate(
+                    "pattern",
+                    items.patterns[row],
+                    int(items.pattern_sessions[row]),
+                    int(items.pattern_users[row]),
+                    False,
+                    items.pattern_gap,
+                )
+            )
+    return out
+
+
+def _contains(longer: tuple[int, ...], shorter: tuple[int, ...]) -> bool:
+    return len(longer) > len(shorter) and occurs_in(shorter, longer, None)
+
+
+def _overlap(smaller: dict[int, int], larger: dict[int, int]) -> float:
+    """Share of the first gap's sessions (weighted distinct paths) that also contain the second."""
+    total = sum(smaller.values())
+    return sum(w for p, w in smaller.items() if p in larger) / total if total else 0.0
+
+
+def _fold(ranked: list[dict[str, Any]], top: int, support: dict[int, dict[int, int]]) -> list[dict[str, Any]]:
+    """Keep one gap per family and fold the rest under it.
+
+    A gap joins the family of an earlier (better-ranked) gap when
+    - its path contains a path already listed or folded: it cannot be tested without that path;
+    - its path is contained in a listed path and has at most 10 % more sessions: it says nothing new;
+    - both are mined patterns ending at the same event and 90 % of its sessions also contain the
+      listed one: the same journey with an optional step more or less.
+    Each family is then shown through its most specific member (the longest path within 10 % of
+    the family's best sessions), so the listing names journeys rather than single events.
+    """
+    kept: list[dict[str, Any]] = []
+    known: list[tuple[tuple[int, ...], dict[str, Any]]] = []
+    for gap in ranked:
+        ids = gap["_ids"]
+        parent = next((owner for path, owner in known if _contains(ids, path)), None)
+        if parent is None:
+            parent = next(
+                (
+                    other
+                    for other in kept
+                    if (_contains(other["_ids"], ids) and gap["sessions"] <= (1 + FOLD_TOLERANCE) * other["sessions"])
+                    or (
+                        gap["kind"] == other["kind"] == "pattern"
+                        and ids[-1] == other["_ids"][-1]
+                        and _overlap(support[gap["_index"]], support[other["_index"]]) >= 1 - FOLD_TOLERANCE
+                    )
+                ),
+                None,
+            )
+        if parent is not None:
+            parent["_members"].append(gap)
+            known.append((ids, parent))
+        elif len(kept) < top:
+            gap["_members"] = []
+            kept.append(gap)
+            known.append((ids, gap))
+    shown = []
+    for family in kept:
+        members = [family, *family["_members"]]
+        close = [m for m in members if m["sessions"] >= (1 - FOLD_TOLERANCE) * family["sessions"]]
+        lead = max(close, key=lambda m: (len(m["_ids"]), m["score"], m["kind"] == "pattern"))
+        entry = {k: v for k, v in lead.items() if not k.startswith("_")}
+        entry["score"] = family["score"]
+        entry["folded"] = [
+            {"kind": m["kind"], "path": m["path"], "sessions": m["sessions"]} for m in members if m is not lead
+        ]
+        shown.append(entry)
+    return shown
+
+
+def _trend(recent: int, sessions: int, recent_total: int, total: int) -> dict[str, Any]:
+    earlier, earlier_total = sessions - recent, total - recent_total
+    recent_share = recent / recent_total if recent_total else 0.0
+    earlier_share = earlier / earlier_total if earlier_total else 0.0
+    if earlier_share == 0:
+        label, ratio = ("new" if recent_share > 0 else "steady"), None
+    else:
+        ratio = recent_share / earlier_share
+        label = "rising" if ratio >= 1.25 else "falling" if ratio <= 0.8 else "steady"
+    return {"label": label, "recent_share": recent_share, "earlier_share": earlier_share, "ratio": ratio}
+
+
+def _reason(gap: dict[str, Any], names_of_kind: dict[str, str]) -> str:
+    what = names_of_kind[gap["kind"]]
+    parts = [
+        f"{what} in {100 * gap['share']:.1f} % of sessions ({gap['sessions']:,} sessions, {gap['users']:,} users; "
+        f"95 % interval {100 * gap['share_low']:.1f}–{100 * gap['share_high']:.1f} %) and no test exercises it"
+    ]
+    if gap["risk"] > 1:
+        parts.append(f"errors in {100 * gap['error_rate']:.1f} % of these sessions, {gap['error_lift']:.1f}× the usual")
+    trend = gap["trend"]
+    if trend["label"] == "new":
+        parts.append("new: seen only in the recent half of the period")
+    elif trend["label"] in ("rising", "falling"):
+        parts.append(f"{trend['label']} ({trend['ratio']:.1f}× its earlier share)")
+    if gap["segments"]:
+        top = gap["segments"][0]
+        parts.append(f"concentrated on {top['segment']} {top['value']} ({top['lift']:.1f}×)")
+    return "; ".join(parts)
+
+
+_KIND_WORDS = {
+    "feature": "used",
+    "transition": "taken",
+    "kpath": "taken, extending tested paths by one step,",
+    "pattern": "a journey",
+}
+
+
+def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any]:
+    """The ranked gaps between real usage and the stored suite (see the module docstring)."""
+    options = options or GapOptions()
+    tests = load_test_paths(ws)
+    items = load_field_items(ws)
+    exercised, pattern_exercised = exercised_masks(tests, items, max_gap=options.max_gap)
+    candidates = _candidates(items, exercised, pattern_exercised, options.kinds)
+    visible = [c for c in candidates if c.users >= options.min_users]
+    suppressed = len(candidates) - len(visible)
+    visible.sort(key=lambda c: (-c.sessions, len(c.path), c.path))
+    pool = visible[: max(options.pool, 10 * options.top)]
+
+    con = ws.con
+    include_automated = profile_included_automated(con)
+    baseline = fetch_dicts(con, "summarize_gap_baseline", include_automated=include_automated)[0]
+    total = int(baseline["sessions"] or 0)
+    base_error = (baseline["error_sessions"] or 0) / total if total else 0.0
+    names = feature_names(con)
+    result: dict[str, Any] = {
+        "workspace": str(ws.path),
+        "max_gap": options.max_gap,
+        "total_sessions": total,
+        "baseline_error_rate": base_error,
+        "candidates": len(candidates),
+        "suppressed": suppressed,
+        "min_users": options.min_users,
+        "tests": len(tests.test_ids),
+        "score": "lower bound of the share's 95 % interval × error risk (1–4)",
+    }
+    if not pool or total == 0:
+        result["gaps"] = []
+        return result
+
+    db = load_sequences(con, with_users=False)
+    which, sequence = containing_sequences(
+        db, [c.path for c in pool], max_gaps=[c.gap for c in pool], framed=[c.framed for c in pool]
+    )
+    assert db.path_ids is not None
+    frame = pa.table({"candidate": pa.array(which, pa.int64()), "path_id": pa.array(db.path_ids[sequence], pa.int64())})
+    con.register("gap_paths", frame)
+    try:
+        evidence = {
+            r["candidate"]: r
+            for r in fetch_dicts(
+                con, "list_gap_evidence", midpoint=baseline["midpoint"], include_automated=include_automated
+            )
+        }
+        segment_rows = fetch_dicts(con, "list_gap_segments", include_automated=include_automated)
+    finally:
+        con.unregister("gap_paths")
+    segment_totals = {
+        (r["segment"], r["value"]): r["sessions"]
+        for r in fetch_dicts(con, "list_segment_baseline", include_automated=include_automated)
+    }
+    segments_of: dict[int, list[dict[str, Any]]] = {}
+    for r in segment_rows:
+        ev = evidence.get(r["candidate"])
+        overall = segment_totals.get((r["segment"], r["value"]), 0)
+        if not ev or not overall or ev["sessions"] == 0:
+            continue
+        gap_share = r["sessions"] / ev["sessions"]
+        lift = gap_share / (overall / total)
+        if lift >= SEGMENT_LIFT and r["sessions"] >= max(options.min_users, 0.1 * ev["sessions"]):
+            segments_of.setdefault(r["candidate"], []).append(
+                {"segment": r["segment"], "value": r["value"], "share_of_gap": gap_share, "lift": lift}
+            )
+
+    ranked: list[dict[str, Any]] = []
+    for index, cand in enumerate(pool):
+        ev = evidence.get(index)
+        if not ev:
+            continue
+        sessions, errors = int(ev["sessions"]), int(ev["error_sessions"])
+        low, high = wilson_interval(sessions, total, confidence=options.confidence)
+        error_rate = errors / sessions if sessions else 0.0
+        error_low, _ = wilson_interval(errors, sessions, confidence=options.confidence)
+        risk = min(MAX_RISK, max(1.0, error_low / base_error)) if base_error > 0 else 1.0
+        gap: dict[str, Any] = {
+            "kind": cand.kind,
+            "path": [names[e] for e in cand.path],
+            "k": len(cand.path),
+            "sessions": sessions,
+            "users": int(ev["users"]),
+            "share": sessions / total,
+            "share_low": low,
+            "share_high": high,
+            "error_rate": error_rate,
+            "error_lift": error_rate / base_error if base_error > 0 else None,
+            "risk": risk,
+            "trend": _trend(int(ev["recent_sessions"]), sessions, int(baseline["recent_sessions"] or 0), total),
+            "segments": sorted(segments_of.get(index, []), key=lambda s: -s["lift"])[:3],
+            "score": low * risk,
+            "folded": [],
+            "_ids": cand.path,
+            "_index": index,
+        }
+        gap["reason"] = _reason(gap, _KIND_WORDS)
+        ranked.append(gap)
+    support: dict[int, dict[int, int]] = {}
+    for candidate, seq in zip(which.tolist(), sequence.tolist(), strict=True):
+        support.setdefault(candidate, {})[seq] = int(db.weights[seq])
+    ranked.sort(key=lambda g: (-g["score"], g["k"], g["path"]))
+    listed = _fold(ranked, options.top, support)
+    for rank, gap in enumerate(listed, start=1):
+        gap["rank"] = rank
+    result["gaps"] = listed
+    return result
+
+
+def unused_tests(ws: Workspace, *, max_share: float = 0.01, max_gap: int = 0) -> dict[str, Any]:
+    """Tests whose journey field sessions take rarely or never: candidates to run less often.
+
+    A test's journey is its mapped steps in order; a session takes it when it contains them with
+    at most ``max_gap`` other events between consecutive steps (0: as one contiguous run). Tests
+    taken by fewer than ``max_share`` of sessions are listed, rarest first, with the share of the
+    suite's steps they account for (what running them less often would save).
+    """
+    if not 0 <= max_share <= 1:
+        raise ConfigError(f"--max-share {max_share}: give a fraction of sessions between 0 and 1")
+    tests: TestPaths = load_test_paths(ws)
+    con = ws.con
+    names = feature_names(con)
+    db = load_sequences(con, with_users=False)
+    total = db.session_count
+    journeys = [tuple(e for e in framed[1:-1] if e >= 0) for framed in tests.framed]
+    runnable = [i for i, j in enumerate(journeys) if j]
+    which, sequence = containing_sequences(
+        db, [journeys[i] for i in runnable], max_gaps=[max_gap] * len(runnable), framed=[False] * len(runnable)
+    )
+    sessions = np.zeros(len(runnable), dtype=np.int64)
+    np.add.at(sessions, which, db.weights[sequence])
+    taken = {runnable[i]: int(sessions[i]) for i in range(len(runnable))}
+    step_total = sum(len(f) - 2 for f in tests.framed)
+    rows = []
+    for i, test_id in enumerate(tests.test_ids):
+        count = taken.get(i, 0)
+        share = count / total if total else 0.0
+        if share > max_share:
+            continue
+        steps = len(tests.framed[i]) - 2
+        unknown = sum(1 for e in tests.framed[i] if e < 0)
+        reason = (
+            "no field session takes this journey"
+            if count == 0
+            else f"{count:,} sessions ({100 * share:.2f} %) take this journey"
+        )
+        if unknown:
+            reason += f"; {unknown} of its steps match no field event"
+        rows.append(
+            {
+                "test_id": test_id,
+                "path": [names[e] if e >= 0 else "?" for e in tests.framed[i][1:-1]],
+                "sessions": count,
+                "share": share,
+                "suite_step_share": steps / step_total if step_total else 0.0,
+                "reason": reason,
+            }
+        )
+    rows.sort(key=lambda r: (r["sessions"], r["test_id"]))
+    return {
+        "workspace": str(ws.path),
+        "max_share": max_share,
+        "max_gap": max_gap,
+        "total_sessions": total,
+        "tests": len(tests.test_ids),
+        "unused": rows,
+    }

@@ -1,0 +1,90 @@
+"""Gaps on the committed demo sample: the generator's manifest is the truth."""
+
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+
+import pytest
+
+from gapfinder.gaps import GapOptions, find_gaps, unused_tests
+from gapfinder.paths import feature_names
+from gapfinder.patterns import MiningOptions, mine_workspace
+from gapfinder.suite import load_suite
+from gapfinder.workspace import Workspace
+from tests.helpers import SAMPLE
+
+MANIFEST = json.loads((SAMPLE / "manifest.json").read_text())
+
+
+@pytest.fixture(scope="module")
+def demo_gaps(tmp_path_factory: pytest.TempPathFactory, sample_workspace: Path) -> dict:
+    ws_path = tmp_path_factory.mktemp("gaps") / "ws.duckdb"
+    shutil.copy(sample_workspace, ws_path)
+    with Workspace(ws_path) as ws:
+        load_suite(ws, [SAMPLE / "tests" / "suite_traces.csv"])
+        mine_workspace(ws, MiningOptions())
+        result = find_gaps(ws, GapOptions(top=10))
+        result["_unused"] = unused_tests(ws)
+        names = feature_names(ws.con)
+        result["_kpaths"] = {
+            tuple(names[e] for e in p): s for p, s in ws.con.execute("SELECT path, sessions FROM kpaths").fetchall()
+        }
+    return result
+
+
+def contains_run(path: list[str], run: list[str]) -> bool:
+    return any(path[i : i + len(run)] == run for i in range(len(path) - len(run) + 1))
+
+
+def family_paths(gap: dict) -> list[list[str]]:
+    return [gap["path"], *(f["path"] for f in gap["folded"])]
+
+
+@pytest.mark.parametrize("journey", MANIFEST["untested_journeys"], ids=lambda j: j["journey"])
+def test_every_planted_untested_journey_is_in_the_top_10(demo_gaps: dict, journey: dict) -> None:
+    signature = journey["signature_transition"]
+    hits = [g["rank"] for g in demo_gaps["gaps"] if any(contains_run(p, signature) for p in family_paths(g))]
+    assert hits and min(hits) <= 10, f"{journey['journey']} ({signature}) not among the top 10"
+
+
+def test_the_automated_loop_is_not_a_gap(demo_gaps: dict) -> None:
+    loop = MANIFEST["automated_account"]["loop_transition"]
+    assert not [g for g in demo_gaps["gaps"] if any(contains_run(p, loop) for p in family_paths(g))]
+
+
+def test_the_waitlist_gap_is_recent_and_on_the_new_version(demo_gaps: dict) -> None:
+    (waitlist,) = [g for g in demo_gaps["gaps"] if "join_waitlist" in g["path"]]
+    assert waitlist["trend"]["label"] in ("new", "rising")
+    assert {"segment": "app_version", "value": "5.0"}.items() <= waitlist["segments"][0].items()
+
+
+def test_every_gap_carries_its_evidence(demo_gaps: dict) -> None:
+    total = demo_gaps["total_sessions"]
+    for gap in demo_gaps["gaps"]:
+        assert {
+            "path",
+            "sessions",
+            "users",
+            "share",
+            "reason",
+            "share_low",
+            "share_high",
+            "error_rate",
+            "trend",
+        } <= gap.keys()
+        assert isinstance(gap["path"], list) and gap["users"] >= 5
+        assert gap["share"] == pytest.approx(gap["sessions"] / total)
+        assert gap["share_low"] <= gap["share"] <= gap["share_high"]
+        if gap["kind"] in ("feature", "transition", "kpath"):
+            assert gap["sessions"] == demo_gaps["_kpaths"][tuple(gap["path"])]  # evidence agrees with the SQL counts
+    scores = [g["score"] for g in demo_gaps["gaps"]]
+    assert scores == sorted(scores, reverse=True)
+
+
+def test_rarely_used_tests_are_listed(demo_gaps: dict) -> None:
+    listed = {r["test_id"] for r in demo_gaps["_unused"]["unused"]}
+    assert set(MANIFEST["rarely_used_tests"]) <= listed
+    tested = set(MANIFEST["tested_journeys"].values()) - set(MANIFEST["rarely_used_tests"])
+    assert not listed & tested

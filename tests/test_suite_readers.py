@@ -1,0 +1,171 @@
+"""One test per suite reader on small hand-written files (tests/data/suite), good and malformed."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from gapfinder.errors import ConfigError, InputError
+from gapfinder.sources.formats import SourceFiles
+from gapfinder.suite import SuiteOptions, read_suite
+from gapfinder.suite.catalog import read_catalog
+from gapfinder.suite.gherkin import StepPhrases, read_feature_file
+from gapfinder.suite.junit import read_junit_xml
+from gapfinder.suite.otlp import read_otlp_json
+from gapfinder.suite.traces import read_trace_files
+
+DATA = Path(__file__).resolve().parent / "data" / "suite"
+
+
+def steps_of(report: object) -> dict[str, list[str]]:
+    return {t.test_id: t.steps for t in report.traces}  # type: ignore[attr-defined]
+
+
+def test_catalog() -> None:
+    assert steps_of(read_catalog(DATA / "catalog.yaml")) == {
+        "test_browse": ["login", "search_catalogue", "view_tool"],
+        "test_extend": ["login", "Open Notifications", "extend my loan"],
+    }
+
+
+@pytest.mark.parametrize(
+    ("text", "needle"),
+    [
+        ("tests: [{id: a}]", "entry 1 needs `id` and `steps`"),
+        ("tests: [{id: a, steps: login}]", "must be a list"),
+        ("tests: [{id: a, steps: [x]}, {id: a, steps: [y]}]", "appears twice"),
+        ("nothing: here", "top-level `tests:`"),
+        ("tests: [\n  - {id: a", "not valid YAML"),
+    ],
+)
+def test_catalog_malformed(tmp_path: Path, text: str, needle: str) -> None:
+    path = tmp_path / "bad.yaml"
+    path.write_text(text)
+    with pytest.raises(InputError, match=needle) as error:
+        read_catalog(path)
+    assert str(path) in str(error.value)
+
+
+def test_trace_csv_with_mapped_columns_is_ordered_by_step() -> None:
+    source = SourceFiles("csv", (str(DATA / "traces.csv"),), str(DATA / "traces.csv"))
+    report = read_trace_files(source, {"test_id": "case", "step_no": "seq", "event": "action"})
+    assert steps_of(report) == {"t_other": ["login"], "t_pay": ["login", "search_catalogue", "pay_deposit_card"]}
+
+
+def test_trace_csv_without_the_mapping_names_the_missing_column() -> None:
+    source = SourceFiles("csv", (str(DATA / "traces.csv"),), str(DATA / "traces.csv"))
+    with pytest.raises(InputError, match="--map test_id=COLUMN"):
+        read_trace_files(source)
+
+
+def test_gherkin_with_phrases_expands_outlines() -> None:
+    report = read_feature_file(DATA / "loans.feature", StepPhrases.load(DATA / "phrases.yaml"))
+    assert steps_of(report) == {
+        "Loans: Extend a loan": ["login", "open_notifications", "extend_loan", "I see the new return date"],
+        "Loans: Pay the deposit": ["login", "pay_deposit_card"],
+        "Loans: Pay the deposit #2": ["login", "pay_deposit_voucher"],
+    }
+    assert report.unmatched_phrases == {"I see the new return date": 1}
+    assert report.ignored_phrases == {"the app is open": 1}
+
+
+def test_gherkin_malformed(tmp_path: Path) -> None:
+    path = tmp_path / "bad.feature"
+    path.write_text("this is not Gherkin\nFeature: x\n")
+    with pytest.raises(InputError, match="not valid Gherkin"):
+        read_feature_file(path)
+
+
+def test_steps_map_with_a_bad_expression(tmp_path: Path) -> None:
+    path = tmp_path / "p.yaml"
+    path.write_text('steps:\n  "I (pay": pay\n')
+    with pytest.raises(ConfigError, match="not a valid regular expression"):
+        StepPhrases.load(path)
+
+
+def test_junit_xml() -> None:
+    report = read_junit_xml(DATA / "report.xml")
+    assert steps_of(report) == {
+        "tests.test_loans::test_extend": ["login", "open_notifications", "extend_loan"],
+        "tests.test_loans::test_return": ["login", "return_tool"],
+    }
+    assert report.skipped == {"test cases without a 'steps' property": 1}
+
+
+@pytest.mark.parametrize(
+    ("text", "needle"),
+    [
+        ("<testsuites><testcase name='a'>", "not well-formed XML"),
+        ("<html/>", "root element is <html>"),
+        (
+            "<testsuite><testcase name='a'><properties>"
+            "<property name='steps' value='[1'/></properties></testcase></testsuite>",
+            "not a JSON list",
+        ),
+        ("<testsuite><testcase name='a'/></testsuite>", "no test case carries"),
+        ('<!DOCTYPE x [<!ENTITY a "aaaa">]><testsuite><testcase name="&a;"/></testsuite>', "refused unsafe XML"),
+    ],
+)
+def test_junit_malformed(tmp_path: Path, text: str, needle: str) -> None:
+    path = tmp_path / "bad.xml"
+    path.write_text(text)
+    with pytest.raises(InputError, match=needle):
+        read_junit_xml(path)
+
+
+def test_otlp_json_orders_spans_by_start_and_counts_untagged() -> None:
+    report = read_otlp_json(DATA / "spans.json")
+    assert steps_of(report) == {"test_search": ["login", "search_catalogue"]}
+    assert report.skipped == {"spans without a test.case.name attribute": 1}
+
+
+def test_otlp_without_test_names(tmp_path: Path) -> None:
+    path = tmp_path / "x.json"
+    path.write_text('{"resourceSpans": [{"scopeSpans": [{"spans": [{"name": "a"}]}]}]}')
+    with pytest.raises(InputError, match="no span carries"):
+        read_otlp_json(path)
+
+
+def test_read_suite_mixes_sources_and_refuses_a_test_in_two(tmp_path: Path) -> None:
+    report = read_suite([DATA / "catalog.yaml", DATA / "report.xml", DATA / "spans.json", DATA / "catalog.yaml"])
+    assert {t.kind for t in report.traces} == {"catalog", "junit", "otlp"}
+    assert len(report.traces) == 5  # a file given twice is read once
+    copy = tmp_path / "again.yaml"
+    copy.write_text((DATA / "catalog.yaml").read_text())
+    with pytest.raises(InputError, match="appears in"):
+        read_suite([DATA / "catalog.yaml", copy], SuiteOptions())
+
+
+def test_pytest_plugin_writes_a_trace_that_reads_back(tmp_path: Path) -> None:
+    test_file = tmp_path / "test_app.py"
+    test_file.write_text(
+        "def test_extend(feature_trace):\n"
+        "    feature_trace('login')\n"
+        "    feature_trace('open_notifications')\n"
+        "    feature_trace('extend_loan')\n\n"
+        "def test_plain():\n"
+        "    assert True\n"
+    )
+    trace = tmp_path / "out" / "trace.ndjson"
+    done = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "pytest",
+            "-q",
+            "-p",
+            "gapfinder.pytest_plugin",
+            "--gapfinder-trace",
+            str(trace),
+            str(test_file),
+        ],
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+    )
+    assert done.returncode == 0, done.stdout + done.stderr
+    report = read_suite([trace])
+    assert steps_of(report) == {"test_app.py::test_extend": ["login", "open_notifications", "extend_loan"]}
