@@ -1,0 +1,89 @@
+"""Benchmark of the stages after profile — suite, paths --kind patterns, coverage, gaps — on demo data.
+
+For each size: generate demo telemetry, profile it once, then alternate runs of a floor and of each
+stage, every one in a fresh process, and print medians of wall time, peak memory, the ratio to
+the floor and the scaling between the smallest and largest size. The floor is one bare DuckDB
+query over the same workspace that touches every counted session once: it unnests each session's
+path and counts its transitions.
+"""
+
+from __future__ import annotations
+
+import argparse
+import shutil
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+FLOOR = """
+import duckdb, sys
+con = duckdb.connect(sys.argv[1], read_only=True)
+con.execute("SELECT a, b, count(*) FROM (SELECT p[i] AS a, p[i + 1] AS b FROM (SELECT path AS p, "
+            "unnest(range(1, len(path))) AS i FROM sessions WHERE NOT is_automated)) GROUP BY ALL").fetchall()
+"""
+
+
+def timed(cmd: list[str]) -> tuple[float, float]:
+    """(seconds, peak RSS in GB) of one child process."""
+    start = time.perf_counter()
+    done = subprocess.run(["/usr/bin/time", "-f", "%M", *cmd], capture_output=True, text=True)
+    seconds = time.perf_counter() - start
+    if done.returncode != 0:
+        raise SystemExit(f"{' '.join(cmd)} failed: {done.stderr[-1500:]}")
+    return seconds, int(done.stderr.strip().splitlines()[-1]) / 1024 / 1024
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__)
+    parser.add_argument("--sizes", type=int, nargs="+", default=[1_000_000, 10_000_000])
+    parser.add_argument("--runs", type=int, default=3)
+    args = parser.parse_args()
+    gapfinder = shutil.which("gapfinder") or sys.exit("install gapfinder first (pip install -e .)")
+    medians: dict[str, dict[int, float]] = {}
+    with tempfile.TemporaryDirectory() as tmp:
+        for size in args.sizes:
+            demo = Path(tmp) / f"demo{size}"
+            ws = str(Path(tmp) / f"ws{size}.duckdb")
+            subprocess.run(
+                [gapfinder, "demo", "--out", str(demo), "--events", str(size), "--seed", "1"],
+                check=True,
+                capture_output=True,
+            )
+            subprocess.run(
+                [gapfinder, "profile", str(demo / "field"), "-w", ws, "--format", "json"],
+                check=True,
+                capture_output=True,
+            )
+            suite = str(demo / "tests" / "suite_traces.csv")
+            stages = {
+                "floor": [sys.executable, "-c", FLOOR, ws],
+                "suite": [gapfinder, "suite", suite, "-w", ws, "--format", "json"],
+                "patterns": [gapfinder, "paths", "-w", ws, "--kind", "patterns", "--format", "json"],
+                "coverage": [gapfinder, "coverage", "-w", ws, "--max-gap", "1", "--format", "json"],
+                "gaps": [gapfinder, "gaps", "-w", ws, "--top", "20", "--format", "json"],
+            }
+            results: dict[str, list[tuple[float, float]]] = {name: [] for name in stages}
+            for _ in range(args.runs):
+                for name, cmd in stages.items():
+                    results[name].append(timed(cmd))
+            floor = statistics.median(s for s, _ in results["floor"])
+            line = [f"{size:>11,} events  floor {floor:5.2f} s"]
+            for name in list(stages)[1:]:
+                median = statistics.median(s for s, _ in results[name])
+                peak = max(m for _, m in results[name])
+                medians.setdefault(name, {})[size] = median
+                line.append(f"{name} {median:5.2f} s ({median / floor:4.1f}x, {peak:4.2f} GB)")
+            print("  ".join(line) + f"  (medians of {args.runs})", flush=True)
+    if len(args.sizes) > 1:
+        small, large = min(args.sizes), max(args.sizes)
+        print(
+            f"scaling {large // small}x events -> "
+            + ", ".join(f"{name} {m[large] / m[small]:.2f}x" for name, m in medians.items())
+        )
+
+
+if __name__ == "__main__":
+    main()
