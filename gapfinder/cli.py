@@ -695,6 +695,161 @@ def unused(workspace: str, max_share: float, max_gap: int, output_format: str) -
     )
 
 
+@cli.command()
+@workspace_option
+@click.option("--budget", default=8, show_default=True, type=click.IntRange(min=1), help="Tests (or steps) to spend.")
+@click.option(
+    "--cost",
+    type=click.Choice(["tests", "steps"]),
+    default="tests",
+    show_default=True,
+    help="What the budget counts: whole tests, or steps (longer scenarios cost more).",
+)
+@click.option(
+    "--objective",
+    type=click.Choice(["transitions", "kpaths", "patterns"]),
+    default="transitions",
+    show_default=True,
+    help="What a scenario buys: field occurrences of untested transitions, k-paths, or sessions of mined patterns.",
+)
+@click.option(
+    "--candidates",
+    default=30,
+    show_default=True,
+    type=click.IntRange(min=1),
+    help="Top gaps turned into candidate scenarios.",
+)
+@min_users_option("gaps")
+@output_options
+def plan(
+    workspace: str, budget: int, cost: str, objective: str, candidates: int, min_users: int, output_format: str
+) -> None:
+    """Choose next sprint's scenarios: the set within the budget that buys the most coverage.
+
+    Each candidate is the most probable complete session through a top gap under the usage model;
+    the choice is greedy on usage-weighted gain, with its guarantee stated. The plan is stored
+    for `gapfinder export`.
+    """
+    from gapfinder.plan import PlanOptions, make_plan
+    from gapfinder.workspace import Workspace
+
+    options = PlanOptions(budget=budget, cost=cost, objective=objective, candidates=candidates, min_users=min_users)
+    with Workspace(workspace, read_only=not os.path.exists(workspace)) as ws:
+        result = make_plan(ws, options)
+    columns = ["scenario", "path", "steps", "gain", "gain_share", "gaps", "sessions", "users", "share", "reason"]
+    _emit_result(
+        result,
+        output_format,
+        table="render_plan",
+        header=columns,
+        rows=lambda: [
+            tuple(json.dumps(r[c]) if isinstance(r[c], list) else r[c] for c in columns) for r in result["scenarios"]
+        ],
+    )
+
+
+@cli.command()
+@workspace_option
+@click.option("--to", "to", required=True, type=click.Path(file_okay=False), help="Folder to write the files into.")
+@click.option(
+    "--as",
+    "as_format",
+    type=click.Choice(["pytest", "gherkin", "json", "csv"]),
+    default="pytest",
+    show_default=True,
+    help="pytest modules with a step registry, Gherkin features, or the plan as JSON or CSV.",
+)
+@click.option("--force", is_flag=True, help="Overwrite files that exist and differ.")
+@click.option(
+    "--phrases",
+    type=click.Path(dir_okay=False),
+    help="For Gherkin: a YAML file mapping event names to step phrases (`phrases: {event: phrase}`).",
+)
+def export(workspace: str, to: str, as_format: str, force: bool, phrases: str | None) -> None:
+    """Write the stored plan's scenarios as test skeletons to drop into a test repository.
+
+    Files are named from the scenarios, written only inside --to, and never over a different
+    existing file without --force; exporting the same plan again gives identical files.
+    """
+    from gapfinder.export import export_plan
+    from gapfinder.plan import load_plan
+    from gapfinder.workspace import Workspace
+
+    with Workspace(workspace, read_only=True) as ws:
+        stored = load_plan(ws)
+    result = export_plan(stored, to, as_format=as_format, force=force, phrase_map=phrases)
+    click.echo(f"wrote {len(result.files)} file(s) for {result.scenarios} scenario(s) to {result.folder}:", err=True)
+    for name in result.files:
+        click.echo(str(result.folder / name))
+
+
+@cli.command(name="run")
+@click.argument("telemetry", nargs=-1, required=True)
+@click.option(
+    "--tests", "tests", multiple=True, required=True, help="Test sources (as for `gapfinder suite`); repeatable."
+)
+@click.option(
+    "--out",
+    required=True,
+    type=click.Path(file_okay=False),
+    help="Folder for the workspace, plan, skeletons and summary.",
+)
+@click.option("--budget", default=8, show_default=True, type=click.IntRange(min=1), help="New scenarios to plan.")
+@click.option(
+    "--map",
+    "maps",
+    multiple=True,
+    metavar="CANONICAL=SOURCE",
+    help="Map a telemetry column (as for `gapfinder profile`); repeatable.",
+)
+@click.option("--top", default=10, show_default=True, type=click.IntRange(min=1), help="Gaps in the summary.")
+@min_users_option("paths")
+@click.option("--force", is_flag=True, help="Overwrite skeleton files that exist and differ.")
+def run_all(
+    telemetry: tuple[str, ...],
+    tests: tuple[str, ...],
+    out: str,
+    budget: int,
+    maps: tuple[str, ...],
+    top: int,
+    min_users: int,
+    force: bool,
+) -> None:
+    """The whole job at once: profile, suite, journeys, gaps, plan, skeletons and a Markdown summary.
+
+    Writes OUT/workspace.duckdb, OUT/summary.md, OUT/gapfinder_plan.json and .csv, and skeletons
+    under OUT/pytest/ and OUT/gherkin/.
+    """
+    from gapfinder.pipeline import run_pipeline
+    from gapfinder.plan import PlanOptions
+    from gapfinder.usage_profile import ProfileOptions
+
+    with _progress(total=6) as step:
+        result = run_pipeline(
+            telemetry,
+            tests,
+            out,
+            profile=ProfileOptions(mapping=_parse_mapping(None, maps)),
+            plan=PlanOptions(budget=budget, min_users=min_users),
+            top=top,
+            min_users=min_users,
+            force=force,
+            progress=step,
+        )
+    plan_result = result.summary["plan"]
+    coverage = plan_result["coverage"].get("transitions", {})
+    click.echo(
+        f"{len(result.summary['gaps']['gaps'])} gaps ranked; {len(plan_result['scenarios'])} scenario(s) planned; "
+        f"transition coverage by sessions {100 * (coverage.get('before') or 0):.1f} % → "
+        f"{100 * (coverage.get('after') or 0):.1f} %",
+        err=True,
+    )
+    click.echo(f"summary: {result.out / 'summary.md'}")
+    for name in result.files:
+        if name != "summary.md":
+            click.echo(str(result.out / name))
+
+
 def _render_summary(summary: dict[str, Any], output_format: str) -> None:
     from gapfinder.report import render_profile, summary_rows
 

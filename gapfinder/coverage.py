@@ -135,7 +135,7 @@ class FieldItems:
 
     k: np.ndarray
     code: np.ndarray
-    paths: list[tuple[int, ...]]
+    path_column: Any  # pyarrow ListArray of event ids, read row by row with path()
     occurrences: np.ndarray
     sessions: np.ndarray
     users: np.ndarray
@@ -145,6 +145,10 @@ class FieldItems:
     pattern_sessions: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64))
     pattern_users: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64))
     pattern_gap: int | None = None
+
+    def path(self, row: int) -> tuple[int, ...]:
+        """Event ids of one k-path row (converted on demand: there may be millions of rows)."""
+        return tuple(self.path_column[row].as_py())
 
 
 def load_test_paths(ws: Workspace) -> TestPaths:
@@ -165,7 +169,7 @@ def load_field_items(ws: Workspace) -> FieldItems:
     items = FieldItems(
         k=k,
         code=table.column("code").to_numpy().astype(np.uint64),
-        paths=[tuple(p) for p in table.column("path").to_pylist()],
+        path_column=table.column("path").combine_chunks(),
         occurrences=table.column("occurrences").to_numpy().astype(np.int64),
         sessions=table.column("sessions").to_numpy().astype(np.int64),
         users=table.column("users").to_numpy().astype(np.int64),

@@ -38,7 +38,7 @@ from gapfinder.mining import containing_sequences
 from gapfinder.paths import feature_names
 from gapfinder.patterns import load_sequences, profile_included_automated
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_dicts
+from gapfinder.sql import fetch_dicts, registered
 from gapfinder.stats import wilson_interval
 from gapfinder.workspace import Workspace
 
@@ -100,21 +100,45 @@ def _frontier(items: FieldItems, exercised: np.ndarray) -> np.ndarray:
 
 
 def _candidates(
-    items: FieldItems, exercised: np.ndarray, pattern_exercised: np.ndarray, kinds: tuple[str, ...]
-) -> list[_Candidate]:
-    out: list[_Candidate] = []
+    items: FieldItems,
+    exercised: np.ndarray,
+    pattern_exercised: np.ndarray,
+    kinds: tuple[str, ...],
+    *,
+    min_users: int,
+    pool: int,
+) -> tuple[list[_Candidate], int, int]:
+    """(the ``pool`` candidates with the most sessions, all candidates, those held back).
+
+    Selection runs on arrays; objects are made only for the pool, so millions of unexercised
+    k-paths cost one sort, not a Python loop.
+    """
     selectors = {
         "feature": (items.k == 1) & ~exercised,
         "transition": (items.k == 2) & ~exercised,
         "kpath": _frontier(items, exercised),
     }
-    for kind, selector in selectors.items():
-        if kind not in kinds:
-            continue
-        for row in np.flatnonzero(selector):
-            out.append(_Candidate(kind, items.paths[row], int(items.sessions[row]), int(items.users[row]), True, 0))
-    if "pattern" in kinds:
-        for row in np.flatnonzero(~pattern_exercised):
+    kind_of_row = np.full(len(items.k), -1, dtype=np.int64)
+    for n, kind in enumerate(GAP_KINDS[:3]):
+        if kind in kinds:
+            kind_of_row[selectors[kind]] = n
+    rows = np.flatnonzero(kind_of_row >= 0)
+    pattern_rows = np.flatnonzero(~pattern_exercised) if "pattern" in kinds else np.zeros(0, np.int64)
+    total = len(rows) + len(pattern_rows)
+    rows = rows[items.users[rows] >= min_users]
+    pattern_rows = pattern_rows[items.pattern_users[pattern_rows] >= min_users]
+    held_back = total - len(rows) - len(pattern_rows)
+    sessions = np.concatenate([items.sessions[rows], items.pattern_sessions[pattern_rows]])
+    lengths = np.concatenate([items.k[rows], [len(items.patterns[r]) for r in pattern_rows]]).astype(np.int64)
+    order = np.lexsort((lengths, -sessions))[:pool]
+    out: list[_Candidate] = []
+    for i in order.tolist():
+        if i < len(rows):
+            row = int(rows[i])
+            kind = GAP_KINDS[int(kind_of_row[row])]
+            out.append(_Candidate(kind, items.path(row), int(items.sessions[row]), int(items.users[row]), True, 0))
+        else:
+            row = int(pattern_rows[i - len(rows)])
             out.append(
                 _Candidate(
                     "pattern",
@@ -125,7 +149,7 @@ def _candidates(
                     items.pattern_gap,
                 )
             )
-    return out
+    return out, total, held_back
 
 
 def _contains(longer: tuple[int, ...], shorter: tuple[int, ...]) -> bool:
@@ -234,11 +258,14 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
     tests = load_test_paths(ws)
     items = load_field_items(ws)
     exercised, pattern_exercised = exercised_masks(tests, items, max_gap=options.max_gap)
-    candidates = _candidates(items, exercised, pattern_exercised, options.kinds)
-    visible = [c for c in candidates if c.users >= options.min_users]
-    suppressed = len(candidates) - len(visible)
-    visible.sort(key=lambda c: (-c.sessions, len(c.path), c.path))
-    pool = visible[: max(options.pool, 10 * options.top)]
+    pool, candidate_count, suppressed = _candidates(
+        items,
+        exercised,
+        pattern_exercised,
+        options.kinds,
+        min_users=options.min_users,
+        pool=max(options.pool, 10 * options.top),
+    )
 
     con = ws.con
     include_automated = profile_included_automated(con)
@@ -251,7 +278,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         "max_gap": options.max_gap,
         "total_sessions": total,
         "baseline_error_rate": base_error,
-        "candidates": len(candidates),
+        "candidates": candidate_count,
         "suppressed": suppressed,
         "min_users": options.min_users,
         "tests": len(tests.test_ids),
@@ -267,8 +294,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
     )
     assert db.path_ids is not None
     frame = pa.table({"candidate": pa.array(which, pa.int64()), "path_id": pa.array(db.path_ids[sequence], pa.int64())})
-    con.register("gap_paths", frame)
-    try:
+    with registered(con, gap_paths=frame):
         evidence = {
             r["candidate"]: r
             for r in fetch_dicts(
@@ -276,8 +302,6 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             )
         }
         segment_rows = fetch_dicts(con, "list_gap_segments", include_automated=include_automated)
-    finally:
-        con.unregister("gap_paths")
     segment_totals = {
         (r["segment"], r["value"]): r["sessions"]
         for r in fetch_dicts(con, "list_segment_baseline", include_automated=include_automated)

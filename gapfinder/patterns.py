@@ -21,7 +21,7 @@ from gapfinder.errors import ConfigError
 from gapfinder.mining import DEFAULT_MAX_PATTERNS, PatternSet, SequenceDatabase, mine_patterns, resolve_min_support
 from gapfinder.paths import Listing, feature_names
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_arrow, fetch_dicts, run
+from gapfinder.sql import fetch_arrow, fetch_dicts, registered, run
 from gapfinder.workspace import StageRecord, Workspace
 
 __all__ = [
@@ -161,11 +161,8 @@ def mine_workspace(ws: Workspace, options: MiningOptions | None = None) -> Minin
     )
     frame = _patterns_frame(patterns)
     with ws.stage(record) as con:
-        con.register("patterns_frame", frame)
-        try:
+        with registered(con, patterns_frame=frame):
             run(con, "create_patterns")
-        finally:
-            con.unregister("patterns_frame")
         run(con, "upsert_meta", key="patterns_parameters", value=json.dumps(parameters, sort_keys=True))
     return MiningRun(patterns, threshold, total, db.sequence_count, seconds, parameters)
 

@@ -6,8 +6,10 @@ Each file holds one statement and opens with a comment saying what it returns an
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import warnings
+from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
@@ -15,7 +17,7 @@ import duckdb
 
 from gapfinder.errors import QueryError
 
-__all__ = ["fetch_arrow", "fetch_dicts", "load", "query_dir", "run"]
+__all__ = ["fetch_arrow", "fetch_dicts", "load", "query_dir", "registered", "run"]
 
 
 @functools.cache
@@ -67,3 +69,15 @@ def fetch_arrow(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> 
     with warnings.catch_warnings():
         warnings.filterwarnings("ignore", message="Arrow output on a DB-API result", category=UserWarning)
         return to_table()
+
+
+@contextlib.contextmanager
+def registered(con: duckdb.DuckDBPyConnection, **frames: Any) -> Iterator[duckdb.DuckDBPyConnection]:
+    """Register Arrow tables as views for the queries run inside the block; unregister after."""
+    for name, frame in frames.items():
+        con.register(name, frame)
+    try:
+        yield con
+    finally:
+        for name in frames:
+            con.unregister(name)

@@ -28,7 +28,7 @@ from gapfinder.paths import (
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sessions import SessionOptions, build_sessions, count_source_rows
 from gapfinder.sources import open_telemetry
-from gapfinder.sql import fetch_dicts, run
+from gapfinder.sql import fetch_dicts, registered, run
 from gapfinder.usage_model import END, START, UsageModel
 from gapfinder.workspace import StageRecord, Workspace, open_for_stage
 
@@ -84,14 +84,9 @@ def _fit_model(con: duckdb.DuckDBPyConnection) -> UsageModel:
             ]
         ),
     )
-    con.register("usage_edges_frame", edge_frame)
-    con.register("feature_model_frame", visit_frame)
-    try:
+    with registered(con, usage_edges_frame=edge_frame, feature_model_frame=visit_frame):
         run(con, "create_usage_edges")
         run(con, "create_feature_model")
-    finally:
-        con.unregister("usage_edges_frame")
-        con.unregister("feature_model_frame")
     return model
 
 

@@ -41,3 +41,21 @@ def sample_workspace(tmp_path_factory: pytest.TempPathFactory) -> Path:
     ws = tmp_path_factory.mktemp("sample") / "sample.duckdb"
     profile_telemetry([SAMPLE / "field"], ws, ProfileOptions())
     return ws
+
+
+@pytest.fixture(scope="session")
+def suite_workspace(tmp_path_factory: pytest.TempPathFactory, sample_workspace: Path) -> Path:
+    """The sample workspace with the demo suite stored and patterns mined (copy it before writing)."""
+    import shutil
+
+    from gapfinder.patterns import MiningOptions, mine_workspace
+    from gapfinder.suite import load_suite
+    from gapfinder.workspace import Workspace
+    from tests.helpers import SAMPLE
+
+    ws_path = tmp_path_factory.mktemp("suite") / "suite.duckdb"
+    shutil.copy(sample_workspace, ws_path)
+    with Workspace(ws_path) as ws:
+        load_suite(ws, [SAMPLE / "tests" / "suite_traces.csv"])
+        mine_workspace(ws, MiningOptions())
+    return ws_path

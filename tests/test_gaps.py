@@ -3,15 +3,12 @@
 from __future__ import annotations
 
 import json
-import shutil
 from pathlib import Path
 
 import pytest
 
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.paths import feature_names
-from gapfinder.patterns import MiningOptions, mine_workspace
-from gapfinder.suite import load_suite
 from gapfinder.workspace import Workspace
 from tests.helpers import SAMPLE
 
@@ -19,12 +16,8 @@ MANIFEST = json.loads((SAMPLE / "manifest.json").read_text())
 
 
 @pytest.fixture(scope="module")
-def demo_gaps(tmp_path_factory: pytest.TempPathFactory, sample_workspace: Path) -> dict:
-    ws_path = tmp_path_factory.mktemp("gaps") / "ws.duckdb"
-    shutil.copy(sample_workspace, ws_path)
-    with Workspace(ws_path) as ws:
-        load_suite(ws, [SAMPLE / "tests" / "suite_traces.csv"])
-        mine_workspace(ws, MiningOptions())
+def demo_gaps(suite_workspace: Path) -> dict:
+    with Workspace(suite_workspace, read_only=True) as ws:
         result = find_gaps(ws, GapOptions(top=10))
         result["_unused"] = unused_tests(ws)
         names = feature_names(ws.con)

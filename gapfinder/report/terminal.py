@@ -13,7 +13,7 @@ from typing import Any
 from rich.console import Console
 from rich.table import Table
 
-__all__ = ["format_path", "render_paths", "render_profile", "summary_rows"]
+__all__ = ["format_path", "render_paths", "render_plan", "render_profile", "summary_rows"]
 
 ACCENT = "dark_cyan"
 MUTED = "grey50"
@@ -363,3 +363,38 @@ def render_unused(result: dict[str, Any], console: Console) -> None:
     table.caption = f"{len(result['unused'])} of {result['tests']} tests · candidates to run less often, not to delete"
     table.caption_style = MUTED
     console.print(table)
+
+
+def render_plan(result: dict[str, Any], console: Console) -> None:
+    """The chosen scenarios with what each buys, and coverage before and after."""
+    table = _table(
+        f"Plan: {len(result['scenarios'])} scenario(s) within {result['budget']} {result['cost']} "
+        f"(from {result['candidates']} candidates)",
+        ("#", "right"),
+        ("scenario", "left"),
+        ("steps", "right"),
+        ("adds", "right"),
+        ("gaps", "left"),
+        ("sessions", "right"),
+    )
+    for r in result["scenarios"]:
+        table.add_row(
+            str(r["scenario"]),
+            format_path(r["path"]),
+            str(r["steps"]),
+            _pct(r["gain_share"]),
+            ", ".join(f"#{g}" for g in r["gaps"]),
+            f"{r['sessions']:,}",
+        )
+    table.caption = (
+        f"objective: untested {result['objective']} (field occurrences) · plan adds {_pct(result['gain_share'])} · "
+        f"{result['guarantee']}"
+    )
+    table.caption_style = MUTED
+    console.print(table)
+    coverage = _table(
+        "Coverage by sessions, before → after", ("metric", "left"), ("before", "right"), ("after", "right")
+    )
+    for metric, v in result["coverage"].items():
+        coverage.add_row(metric, _opt_pct(v["before"]), _opt_pct(v["after"]))
+    console.print(coverage)

@@ -15,7 +15,7 @@ import pyarrow as pa
 from gapfinder.align import load_aliases, resolve_step_names
 from gapfinder.errors import InputError
 from gapfinder.sources.formats import SourceFiles
-from gapfinder.sql import fetch_dicts, run
+from gapfinder.sql import fetch_dicts, registered, run
 from gapfinder.suite.catalog import read_catalog
 from gapfinder.suite.gherkin import StepPhrases, read_feature_file
 from gapfinder.suite.junit import DEFAULT_STEPS_PROPERTY, read_junit_xml
@@ -187,14 +187,9 @@ def load_suite(
         row_counts={"tests": tests_frame.num_rows, "steps": steps_frame.num_rows},
     )
     with ws.stage(record) as con:
-        con.register("suite_tests_frame", tests_frame)
-        con.register("suite_steps_frame", steps_frame)
-        try:
+        with registered(con, suite_tests_frame=tests_frame, suite_steps_frame=steps_frame):
             run(con, "create_suite_tests")
             run(con, "create_suite_steps")
-        finally:
-            con.unregister("suite_tests_frame")
-            con.unregister("suite_steps_frame")
         run(con, "upsert_meta", key="suite_reading", value=json.dumps(reading, sort_keys=True))
     return summarize_suite(ws)
 

@@ -1,0 +1,179 @@
+"""The one-shot main job: profile → suite → patterns → gaps → plan → export → Markdown summary.
+
+``run_pipeline`` is what ``gapfinder run`` calls. Everything lands in one output folder: the
+workspace, the plan as JSON and CSV, pytest and Gherkin skeletons, and ``summary.md``, a page a
+test lead can paste into a pull request or a wiki.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from gapfinder.errors import ConfigError
+from gapfinder.export import export_plan
+from gapfinder.gaps import GapOptions, find_gaps, unused_tests
+from gapfinder.patterns import MiningOptions, mine_workspace
+from gapfinder.plan import PlanOptions, make_plan
+from gapfinder.suite import SuiteOptions, load_suite
+from gapfinder.usage_profile import ProfileOptions, profile_telemetry
+from gapfinder.workspace import Workspace
+
+__all__ = ["PipelineResult", "render_summary_markdown", "run_pipeline"]
+
+
+@dataclass
+class PipelineResult:
+    """Where everything went and the figures of the summary."""
+
+    out: Path
+    workspace: Path
+    files: list[str] = field(default_factory=list)
+    summary: dict[str, Any] = field(default_factory=dict)
+
+
+def run_pipeline(
+    telemetry: Sequence[str | os.PathLike[str]],
+    tests: Sequence[str | os.PathLike[str]],
+    out: str | os.PathLike[str],
+    *,
+    profile: ProfileOptions | None = None,
+    suite: SuiteOptions | None = None,
+    plan: PlanOptions | None = None,
+    mining: MiningOptions | None = None,
+    top: int = 10,
+    min_users: int = 5,
+    force: bool = False,
+    progress: Callable[[str], None] | None = None,
+) -> PipelineResult:
+    """Run the whole job into ``out`` (created when missing) and return what it wrote."""
+    say = progress or (lambda _m: None)
+    folder = Path(out)
+    if folder.exists() and not folder.is_dir():
+        raise ConfigError(f"--out {folder}: exists and is not a folder")
+    folder.mkdir(parents=True, exist_ok=True)
+    workspace = folder / "workspace.duckdb"
+    say("profiling telemetry")
+    profile_summary = profile_telemetry(telemetry, workspace, profile or ProfileOptions(), min_users=min_users)
+    with Workspace(workspace) as ws:
+        say("reading the suite")
+        suite_summary = load_suite(ws, tests, suite or SuiteOptions())
+        say("mining journeys")
+        mined = mine_workspace(ws, mining or MiningOptions())
+        say("ranking gaps")
+        gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users))
+        unused = unused_tests(ws)
+        say("planning scenarios")
+        planned = make_plan(ws, plan or PlanOptions(min_users=min_users))
+    files: list[str] = []
+    if planned["scenarios"]:
+        say("exporting skeletons")
+        for fmt, sub in (("pytest", "pytest"), ("gherkin", "gherkin"), ("json", "."), ("csv", ".")):
+            result = export_plan(planned, folder / sub, as_format=fmt, force=force)
+            files += [str(Path(sub) / f) if sub != "." else f for f in result.files]
+    summary = {
+        "profile": profile_summary,
+        "suite": suite_summary,
+        "patterns": {"found": len(mined.patterns), "min_support_sessions": mined.min_support_sessions},
+        "gaps": gaps,
+        "unused": unused,
+        "plan": planned,
+    }
+    markdown = render_summary_markdown(summary)
+    target = folder / "summary.md"
+    temporary = target.with_name(".summary.md.tmp")
+    temporary.write_text(markdown, encoding="utf-8")
+    temporary.replace(target)
+    files.append("summary.md")
+    return PipelineResult(folder, workspace, sorted(files), summary)
+
+
+def _pct(x: float | None) -> str:
+    return "—" if x is None else f"{100 * x:.1f} %"
+
+
+def _path(path: Sequence[str]) -> str:
+    return " › ".join(f"`{p}`" for p in path)
+
+
+def render_summary_markdown(summary: dict[str, Any]) -> str:
+    """The one-page Markdown summary of a run (coverage, gaps, plan, unused tests, privacy)."""
+    profile, suite, gaps, plan, unused = (summary[k] for k in ("profile", "suite", "gaps", "plan", "unused"))
+    sessions = profile["sessions"]
+    reading = profile["reading"]
+    lines = [
+        "# Test coverage against real usage",
+        "",
+        f"{sessions['count']:,} sessions of {sessions['users']:,} users ({reading.get('first_ts', '')[:10]} to "
+        f"{reading.get('last_ts', '')[:10]}), against {suite['test_count']} tests with {suite['step_count']} steps. "
+        f"Automated traffic left out: {profile['automated']['users']} account(s), {profile['automated']['sessions']:,} "
+        "sessions.",
+        "",
+        "## Coverage now and after the plan",
+        "",
+        "Share of field sessions' items that the tests exercise (strict: contiguous runs).",
+        "",
+        "| metric | now, by sessions | after the plan | now, distinct items |",
+        "|---|---|---|---|",
+    ]
+    for metric, figures in plan["coverage"].items():
+        lines.append(
+            f"| {metric} | {_pct(figures['before'])} | {_pct(figures['after'])} "
+            f"| {_pct(figures['before_unweighted'])} |"
+        )
+    lines += [
+        "",
+        f"## The {len(gaps['gaps'])} untested paths most worth a test",
+        "",
+        "Score: lower bound of the 95 % interval of the share of sessions, times an error risk factor (1–4).",
+        "",
+        "| # | path | sessions | users | share (95 % interval) | errors | trend |",
+        "|---|---|---|---|---|---|---|",
+    ]
+    for g in gaps["gaps"]:
+        lines.append(
+            f"| {g['rank']} | {_path(g['path'])} | {g['sessions']:,} | {g['users']:,} | {_pct(g['share'])} "
+            f"({100 * g['share_low']:.1f}–{100 * g['share_high']:.1f}) | {_pct(g['error_rate'])} "
+            f"| {g['trend']['label']} |"
+        )
+    lines += ["", f"{gaps['suppressed']:,} candidate paths held back: fewer than {gaps['min_users']} users.", ""]
+    lines += [
+        f"## Plan: {len(plan['scenarios'])} new scenario(s), budget {plan['budget']} {plan['cost']}",
+        "",
+        f"Objective: field occurrences of untested {plan['objective']}; the plan adds {_pct(plan['gain_share'])} "
+        f"of them. Guarantee: {plan['guarantee']}.",
+        "",
+        "| # | scenario | steps | adds | closes gaps |",
+        "|---|---|---|---|---|",
+    ]
+    for s in plan["scenarios"]:
+        lines.append(
+            f"| {s['scenario']} | {_path(s['path'])} | {s['steps']} | {_pct(s['gain_share'])} | "
+            f"{', '.join('#' + str(g) for g in s['gaps'])} |"
+        )
+    lines += [
+        "",
+        "Skeletons: `pytest/` (steps in `gapfinder_steps.py`), `gherkin/`, `gapfinder_plan.json`, "
+        "`gapfinder_plan.csv`.",
+        "",
+    ]
+    lines += ["## Tests the field rarely takes", ""]
+    if unused["unused"]:
+        lines += ["| test | journey | sessions | share |", "|---|---|---|---|"]
+        for r in unused["unused"]:
+            lines.append(f"| `{r['test_id']}` | {_path(r['path'])} | {r['sessions']:,} | {100 * r['share']:.2f} % |")
+        lines += ["", "Candidates to run less often, not to delete."]
+    else:
+        lines.append(f"None: every test's journey is in more than {_pct(unused['max_share'])} of sessions.")
+    lines += [
+        "",
+        "## Privacy",
+        "",
+        f"No user ids are shown; paths taken by fewer than {gaps['min_users']} distinct users are held back. "
+        "Pseudonymized telemetry is still personal data: keep this workspace where your data-protection rules allow.",
+        "",
+    ]
+    return "\n".join(lines)

@@ -1,0 +1,53 @@
+"""plan, export and run through click's CliRunner."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from click.testing import CliRunner
+
+from gapfinder.cli import cli
+from tests.helpers import SAMPLE
+
+
+def invoke(*args: str) -> object:
+    return CliRunner().invoke(cli, list(args))
+
+
+def test_plan_then_export(ws: str, tmp_path: Path) -> None:
+    assert invoke("suite", str(SAMPLE / "tests" / "suite_traces.csv"), "-w", ws).exit_code == 0
+    result = invoke("plan", "-w", ws, "--budget", "3", "--format", "json")
+    assert result.exit_code == 0, result.output
+    data = json.loads(result.stdout)
+    assert len(data["scenarios"]) == 3 and all(isinstance(s["path"], list) for s in data["scenarios"])
+    table = invoke("plan", "-w", ws, "--budget", "3")
+    assert "Plan: 3 scenario(s)" in table.stdout and "optimum" in table.stdout
+    out = tmp_path / "candidates"
+    exported = invoke("export", "-w", ws, "--to", str(out), "--as", "gherkin")
+    assert exported.exit_code == 0, exported.output
+    assert list(out.glob("*.feature"))
+
+
+def test_export_without_a_plan_is_one_clear_line(ws: str, tmp_path: Path) -> None:
+    result = invoke("export", "-w", ws, "--to", str(tmp_path / "x"))
+    assert result.exit_code == 2 and "gapfinder plan" in result.stderr
+
+
+def test_run_writes_everything(tmp_path: Path) -> None:
+    out = tmp_path / "report"
+    result = invoke(
+        "run",
+        str(SAMPLE / "field"),
+        "--tests",
+        str(SAMPLE / "tests" / "suite_traces.csv"),
+        "--out",
+        str(out),
+        "--budget",
+        "5",
+    )
+    assert result.exit_code == 0, result.output
+    summary = (out / "summary.md").read_text()
+    assert "# Test coverage against real usage" in summary and "## Plan: 5 new scenario(s)" in summary
+    assert (out / "pytest" / "gapfinder_steps.py").exists() and list((out / "gherkin").glob("*.feature"))
+    assert json.loads((out / "gapfinder_plan.json").read_text())["budget"] == 5

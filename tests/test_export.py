@@ -1,0 +1,101 @@
+"""Exported skeletons: collected by pytest, all skipped; Gherkin parses; safe, stable file writing."""
+
+from __future__ import annotations
+
+import json
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from gapfinder.errors import ConfigError
+from gapfinder.export import export_plan, slug
+from gapfinder.plan import PlanOptions, load_plan, make_plan
+from gapfinder.workspace import Workspace
+
+
+@pytest.fixture(scope="module")
+def plan(tmp_path_factory: pytest.TempPathFactory, suite_workspace: Path) -> dict:
+    ws_path = tmp_path_factory.mktemp("export") / "ws.duckdb"
+    shutil.copy(suite_workspace, ws_path)
+    with Workspace(ws_path) as ws:
+        make_plan(ws, PlanOptions(budget=6))
+        return load_plan(ws)
+
+
+def test_pytest_skeletons_collect_one_item_per_scenario_all_skipped(plan: dict, tmp_path: Path) -> None:
+    export_plan(plan, tmp_path, as_format="pytest")
+    collected = subprocess.run(
+        [sys.executable, "-m", "pytest", "--collect-only", "-q", "-p", "no:cacheprovider", str(tmp_path)],
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+    )
+    items = [ln for ln in collected.stdout.splitlines() if "::test_" in ln]
+    assert len(items) == len(plan["scenarios"]), collected.stdout
+    ran = subprocess.run(
+        [sys.executable, "-m", "pytest", "-q", "-rs", "-p", "no:cacheprovider", str(tmp_path)],
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+    )
+    assert ran.returncode == 0, ran.stdout
+    assert f"{len(plan['scenarios'])} skipped" in ran.stdout and "implement its steps" in ran.stdout
+    registry = (tmp_path / "gapfinder_steps.py").read_text()
+    assert "raise NotImplementedError('pay_deposit_voucher')" in registry
+
+
+def test_gherkin_parses_with_one_scenario_per_candidate(plan: dict, tmp_path: Path) -> None:
+    from gherkin.parser import Parser
+
+    result = export_plan(plan, tmp_path, as_format="gherkin")
+    scenarios = 0
+    for name in result.files:
+        document = Parser().parse((tmp_path / name).read_text())
+        children = document["feature"]["children"]
+        scenarios += sum(1 for c in children if "scenario" in c)
+        assert all("@gapfinder" in [t["name"] for t in c["scenario"]["tags"]] for c in children if "scenario" in c)
+    assert scenarios == len(plan["scenarios"])
+
+
+def test_phrase_map_overrides_default_phrases(plan: dict, tmp_path: Path) -> None:
+    phrases = tmp_path / "phrases.yaml"
+    phrases.write_text('phrases:\n  login: "I sign in with my member card"\n')
+    export_plan(plan, tmp_path / "out", as_format="gherkin", phrase_map=str(phrases))
+    text = "".join(p.read_text() for p in (tmp_path / "out").glob("*.feature"))
+    assert "Given I sign in with my member card" in text and "I login" not in text
+
+
+def test_json_and_csv_carry_every_field(plan: dict, tmp_path: Path) -> None:
+    export_plan(plan, tmp_path, as_format="json")
+    export_plan(plan, tmp_path, as_format="csv")
+    data = json.loads((tmp_path / "gapfinder_plan.json").read_text())
+    assert data["scenarios"] == plan["scenarios"]
+    header = (tmp_path / "gapfinder_plan.csv").read_text().splitlines()[0].split(",")
+    assert {"scenario", "path", "gain_share", "sessions", "users", "share", "reason"} <= set(header)
+
+
+def test_reexport_is_byte_identical_and_never_overwrites_without_force(plan: dict, tmp_path: Path) -> None:
+    first = export_plan(plan, tmp_path, as_format="pytest")
+    before = {name: (tmp_path / name).read_bytes() for name in first.files}
+    export_plan(plan, tmp_path, as_format="pytest")  # same content: allowed, unchanged
+    assert {name: (tmp_path / name).read_bytes() for name in first.files} == before
+    target = tmp_path / first.files[-1]
+    target.write_text("# my edits\n")
+    with pytest.raises(ConfigError, match="--force"):
+        export_plan(plan, tmp_path, as_format="pytest")
+    assert target.read_text() == "# my edits\n"
+    export_plan(plan, tmp_path, as_format="pytest", force=True)
+    assert target.read_bytes() == before[first.files[-1]]
+
+
+def test_names_cannot_escape_the_folder(plan: dict, tmp_path: Path) -> None:
+    hostile = json.loads(json.dumps(plan))
+    hostile["scenarios"][0]["gap_path"] = ["../../etc/passwd"]
+    hostile["scenarios"][0]["name"] = "../../evil"
+    result = export_plan(hostile, tmp_path / "out", as_format="pytest")
+    assert all("/" not in name and not name.startswith(".") for name in result.files)
+    assert not (tmp_path / "etc").exists()
+    assert slug("../../etc/passwd") == "etc_passwd"
