@@ -16,6 +16,7 @@ import sys
 import traceback
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
+from pathlib import Path
 from typing import Any, TypeVar
 
 import click
@@ -848,6 +849,183 @@ def run_all(
     for name in result.files:
         if name != "summary.md":
             click.echo(str(result.out / name))
+
+
+@cli.command(name="audit")
+@workspace_option
+@click.option("--period", help="The period to audit, FIRST..LAST days (default: the recent half of the data).")
+@click.option("--against", help="The period to compare with, FIRST..LAST days (default: the earlier half).")
+@click.option(
+    "--against-workspace",
+    type=click.Path(dir_okay=False, exists=True),
+    help="Compare with the whole of another workspace (e.g. last quarter's) instead of a period.",
+)
+@click.option("--by", type=click.Choice(["app_version", "platform"]), help="Also show coverage per segment value.")
+@click.option(
+    "--trend", type=click.Choice(["month", "week"]), default="month", show_default=True, help="Coverage trend step."
+)
+@click.option(
+    "--top", default=10, show_default=True, type=click.IntRange(min=1), help="Movers, new and vanished paths to list."
+)
+@min_users_option("paths")
+@output_options
+def audit_command(
+    workspace: str,
+    period: str | None,
+    against: str | None,
+    against_workspace: str | None,
+    by: str | None,
+    trend: str,
+    top: int,
+    min_users: int,
+    output_format: str,
+) -> None:
+    """How usage and coverage moved between two periods, or against another workspace.
+
+    Reports the Jensen–Shannon distance of the feature and transition distributions, the paths
+    whose share moved most (with the change's interval and a two-proportion test), new and
+    vanished paths, coverage in each period and by month or week, per segment with --by, and
+    tests whose journey left the field.
+    """
+    from gapfinder.audit import AuditOptions, audit, parse_period
+    from gapfinder.workspace import Workspace
+
+    options = AuditOptions(
+        period=parse_period(period) if period else None,
+        against=parse_period(against, "--against") if against else None,
+        against_workspace=against_workspace,
+        by=by,
+        trend=trend,
+        top=top,
+        min_users=min_users,
+    )
+    with Workspace(workspace, read_only=True) as ws:
+        result = audit(ws, options)
+    _emit_result(
+        result,
+        output_format,
+        table="render_audit",
+        header=["kind", "path", "share_before", "share_now", "change", "change_low", "change_high", "p_value"],
+        rows=lambda: [
+            (
+                m["kind"],
+                json.dumps(m["path"]),
+                m["share_before"],
+                m["share_now"],
+                m["change"],
+                m.get("change_low"),
+                m.get("change_high"),
+                m.get("p_value"),
+            )
+            for m in result["movers"]
+        ],
+    )
+
+
+@cli.command()
+@workspace_option
+@click.option(
+    "--min-coverage",
+    "floors",
+    multiple=True,
+    metavar="METRIC[.MODE][.WEIGHTING]=VALUE",
+    help="A floor, e.g. transitions=0.80 (strict, by sessions) or kpaths.unweighted=0.1; repeatable.",
+)
+@click.option("--max-new-gaps", type=click.IntRange(min=0), help="Most new gaps allowed among the top-ranked ones.")
+@click.option(
+    "--top",
+    default=10,
+    show_default=True,
+    type=click.IntRange(min=1),
+    help="How many top gaps --max-new-gaps looks at.",
+)
+@click.option(
+    "--baseline",
+    type=click.Path(dir_okay=False),
+    help="An earlier `gapfinder gaps --format json` output: gaps not in it are new.",
+)
+@click.option(
+    "--max-gap", default=0, show_default=True, type=click.IntRange(min=0), help="Lenient matching for coverage."
+)
+@min_users_option("gaps")
+@output_options
+def check(
+    workspace: str,
+    floors: tuple[str, ...],
+    max_new_gaps: int | None,
+    top: int,
+    baseline: str | None,
+    max_gap: int,
+    min_users: int,
+    output_format: str,
+) -> None:
+    """A gate for the test pipeline: exit 0 when coverage holds its floors, 1 when it slips.
+
+    Each --min-coverage floor and the --max-new-gaps ceiling is checked and printed with its
+    value; exit code 1 when any fails, 2 for bad input.
+    """
+    from gapfinder.gate import parse_floor, run_gate
+    from gapfinder.workspace import Workspace
+
+    parsed = [parse_floor(f) for f in floors]
+    with Workspace(workspace, read_only=True) as ws:
+        result = run_gate(
+            ws, parsed, max_new_gaps=max_new_gaps, top=top, baseline=baseline, max_gap=max_gap, min_users=min_users
+        )
+    if output_format == "json":
+        _emit_json(result)
+    elif output_format == "csv":
+        _emit_csv(
+            ["check", "value", "limit", "passed"],
+            [(c["check"], c["value"], c["limit"], c["passed"]) for c in result["checks"]],
+        )
+    else:
+        for c in result["checks"]:
+            mark = "pass" if c["passed"] else "FAIL"
+            value = f"{100 * c['value']:.1f} %" if isinstance(c["value"], float) else str(c["value"])
+            limit = f"{100 * c['limit']:.1f} %" if isinstance(c["limit"], float) else str(c["limit"])
+            relation = "≥" if c["check"].startswith("coverage") else "≤"
+            click.echo(f"{mark}  {c['check']}: {value} (needs {relation} {limit})")
+            for path in c.get("new_gaps", []):
+                click.echo(f"      new: {' › '.join(path)}")
+        click.echo("all checks hold" if result["passed"] else "coverage gate failed")
+    if not result["passed"]:
+        raise click.exceptions.Exit(1)
+
+
+@cli.command()
+@workspace_option
+@click.option("-o", "--output", "html_path", type=click.Path(dir_okay=False), help="Write the HTML report here.")
+@click.option("--markdown", "markdown_path", type=click.Path(dir_okay=False), help="Write the Markdown report here.")
+@click.option("--top", default=10, show_default=True, type=click.IntRange(min=1), help="Gaps in the report.")
+@min_users_option("paths")
+def report(workspace: str, html_path: str | None, markdown_path: str | None, top: int, min_users: int) -> None:
+    """Write the coverage report: one self-contained HTML page and/or a Markdown page.
+
+    Headline coverage by metric, its trend by month, a diagram of the most used paths with the
+    untested transitions standing out, the top gaps with their evidence, the stored plan and how
+    usage moved between the earlier and recent half of the period.
+    """
+    from gapfinder.report import render_html, render_markdown
+    from gapfinder.report.data import report_data
+    from gapfinder.workspace import Workspace
+
+    if not html_path and not markdown_path:
+        raise click.UsageError("give -o FILE.html and/or --markdown FILE.md")
+    with Workspace(workspace, read_only=True) as ws:
+        data = report_data(ws, top=top, min_users=min_users)
+    for path, text in (
+        (html_path, render_html(data) if html_path else ""),
+        (markdown_path, render_markdown(data) if markdown_path else ""),
+    ):
+        if path:
+            target = Path(path)
+            if not target.parent.is_dir():
+                raise click.UsageError(f"{target.parent} does not exist: create the folder first")
+            temporary = target.with_name(f".{target.name}.tmp")
+            temporary.write_text(text, encoding="utf-8")
+            temporary.replace(target)
+            click.echo(str(target))
 
 
 def _render_summary(summary: dict[str, Any], output_format: str) -> None:

@@ -18,6 +18,8 @@ from gapfinder.export import export_plan
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.patterns import MiningOptions, mine_workspace
 from gapfinder.plan import PlanOptions, make_plan
+from gapfinder.report.markdown import markdown_path as _path
+from gapfinder.report.markdown import percent as _pct
 from gapfinder.suite import SuiteOptions, load_suite
 from gapfinder.usage_profile import ProfileOptions, profile_telemetry
 from gapfinder.workspace import Workspace
@@ -89,14 +91,6 @@ def run_pipeline(
     temporary.replace(target)
     files.append("summary.md")
     return PipelineResult(folder, workspace, sorted(files), summary)
-
-
-def _pct(x: float | None) -> str:
-    return "—" if x is None else f"{100 * x:.1f} %"
-
-
-def _path(path: Sequence[str]) -> str:
-    return " › ".join(f"`{p}`" for p in path)
 
 
 def render_summary_markdown(summary: dict[str, Any]) -> str:

@@ -1,7 +1,10 @@
-"""Presentation: terminal tables (rich) now; HTML and Markdown reports later."""
+"""Presentation: terminal tables (rich), one self-contained HTML page, and Markdown."""
 
+from gapfinder.report.html import render_html
+from gapfinder.report.markdown import render_markdown
 from gapfinder.report.terminal import (
     render_alignment,
+    render_audit,
     render_coverage,
     render_gaps,
     render_paths,
@@ -14,8 +17,11 @@ from gapfinder.report.terminal import (
 
 __all__ = [
     "render_alignment",
+    "render_audit",
     "render_coverage",
     "render_gaps",
+    "render_html",
+    "render_markdown",
     "render_paths",
     "render_plan",
     "render_profile",

@@ -13,7 +13,7 @@ from typing import Any
 from rich.console import Console
 from rich.table import Table
 
-__all__ = ["format_path", "render_paths", "render_plan", "render_profile", "summary_rows"]
+__all__ = ["format_path", "render_audit", "render_paths", "render_plan", "render_profile", "summary_rows"]
 
 ACCENT = "dark_cyan"
 MUTED = "grey50"
@@ -398,3 +398,72 @@ def render_plan(result: dict[str, Any], console: Console) -> None:
     for metric, v in result["coverage"].items():
         coverage.add_row(metric, _opt_pct(v["before"]), _opt_pct(v["after"]))
     console.print(coverage)
+
+
+def render_audit(result: dict[str, Any], console: Console) -> None:
+    """Drift between two periods: distances, movers, new and vanished paths, coverage then and now."""
+    now, before, distance = result["current"], result["previous"], result["distance"]
+    console.print(
+        f"[bold {ACCENT}]Usage audit[/] · {now['label']} ({now['sessions']:,} sessions) against "
+        f"{before['label']} ({before['sessions']:,} sessions)"
+    )
+    if distance["features"] is not None:
+        console.print(
+            f"Jensen–Shannon distance (0 same, 1 disjoint): features {distance['features']:.3f}, "
+            f"transitions {distance['transitions']:.3f}"
+        )
+    movers = _table(
+        "Moved most (share of sessions)",
+        ("path", "left"),
+        ("kind", "left"),
+        ("before", "right"),
+        ("now", "right"),
+        ("change (95 % interval)", "right"),
+        ("p", "right"),
+    )
+    for m in result["movers"]:
+        interval = f" ({100 * m['change_low']:+.1f}…{100 * m['change_high']:+.1f})" if "change_low" in m else ""
+        movers.add_row(
+            format_path(m["path"]),
+            m["kind"],
+            _pct(m["share_before"]),
+            _pct(m["share_now"]),
+            f"{100 * m['change']:+.1f} pt{interval}",
+            f"{m['p_value']:.2g}" if "p_value" in m else "",
+        )
+    movers.caption = f"{result['held_back']:,} paths held back: fewer than {result['min_users']} users in a period"
+    movers.caption_style = MUTED
+    console.print(movers)
+    for title, rows in (("New transitions", result["new"]), ("Vanished transitions", result["vanished"])):
+        if rows:
+            console.print(
+                f"[bold]{title}[/]: " + "; ".join(f"{format_path(r['path'])} ({r['sessions']:,})" for r in rows)
+            )
+    coverage = _table("Coverage by occurrences, then → now", ("metric", "left"), ("then", "right"), ("now", "right"))
+    for metric in ("features", "transitions"):
+        coverage.add_row(
+            metric,
+            _opt_pct(result["coverage"]["previous"][metric]["by_occurrences"]),
+            _opt_pct(result["coverage"]["current"][metric]["by_occurrences"]),
+        )
+    console.print(coverage)
+    trend = _table(
+        f"Transition coverage by {result['trend_unit']}",
+        ("from", "left"),
+        ("sessions", "right"),
+        ("exercised", "right"),
+    )
+    for t in result["trend"]:
+        trend.add_row(t["bucket"], f"{t['sessions']:,}", _opt_pct(t["transitions_by_occurrences"]))
+    console.print(trend)
+    if result.get("segments"):
+        seg = _table(
+            "Coverage by segment (current period)", ("segment", "left"), ("sessions", "right"), ("exercised", "right")
+        )
+        for s in result["segments"]:
+            seg.add_row(f"{s['segment']} {s['value']}", f"{s['sessions']:,}", _opt_pct(s["transitions_by_occurrences"]))
+        console.print(seg)
+    for t in result["irrelevant_tests"]:
+        console.print(
+            f"[yellow]journey left the field[/]: {t['test_id']} ({t['sessions_before']:,} sessions before, none now)"
+        )

@@ -1,0 +1,350 @@
+"""Audit: how usage and coverage moved between two periods (or two workspaces).
+
+For the current and the earlier period (sessions by start time, or the whole of another
+workspace) it computes, on event names so that two workspaces compare:
+
+- the Jensen–Shannon distance (base 2, in [0, 1]) of the feature and of the transition
+  distributions (occurrences);
+- the top movers: features and transitions whose share of sessions changed most, each with the
+  change, Newcombe's hybrid score interval for it and a two-proportion z test's p-value;
+- new and vanished transitions (in one period and not the other);
+- coverage of features and transitions by the stored suite in each period, its trend by week or
+  month, and per segment (app version or platform) when asked;
+- tests whose journey the earlier period took and the current one no longer does.
+
+Every listed path passes the privacy floor in each period where it appears; the count of paths
+held back is reported.
+"""
+
+from __future__ import annotations
+
+import itertools
+import json
+import re
+from dataclasses import dataclass, field
+from datetime import UTC, date, datetime, timedelta
+from typing import Any
+
+import duckdb
+import numpy as np
+
+from gapfinder.errors import ConfigError
+from gapfinder.mining import SequenceDatabase, containing_sequences
+from gapfinder.paths import feature_names
+from gapfinder.patterns import profile_included_automated
+from gapfinder.privacy import DEFAULT_MIN_USERS
+from gapfinder.sql import fetch_arrow, fetch_dicts
+from gapfinder.stats import difference_interval, jensen_shannon_distance, two_proportion_z_test
+from gapfinder.workspace import Workspace
+
+__all__ = ["AuditOptions", "Period", "audit", "parse_period"]
+
+SEGMENTS = ("app_version", "platform")
+START, END = "START", "END"
+
+
+@dataclass(frozen=True)
+class Period:
+    """A half-open window of session starts [start, end); None is open."""
+
+    start: datetime | None
+    end: datetime | None
+    label: str
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "label": self.label,
+            "from": self.start.date().isoformat() if self.start else None,
+            "to": (self.end - timedelta(days=1)).date().isoformat() if self.end else None,
+        }
+
+
+def parse_period(text: str, option: str = "--period") -> Period:
+    """``YYYY-MM-DD..YYYY-MM-DD`` (both days included) as a Period.
+
+    Examples
+    --------
+    >>> parse_period("2026-04-01..2026-06-30").end.isoformat()
+    '2026-07-01T00:00:00+00:00'
+    """
+    match = re.fullmatch(r"\s*(\d{4}-\d{2}-\d{2})\s*\.\.\s*(\d{4}-\d{2}-\d{2})\s*", text)
+    if not match:
+        raise ConfigError(f"{option} {text!r}: write FIRST..LAST as dates, e.g. 2026-04-01..2026-06-30")
+    try:
+        first, last = (date.fromisoformat(g) for g in match.groups())
+    except ValueError as exc:
+        raise ConfigError(f"{option} {text!r}: {exc}") from None
+    if last < first:
+        raise ConfigError(f"{option} {text!r}: the last day comes before the first")
+    start = datetime(first.year, first.month, first.day, tzinfo=UTC)
+    end = datetime(last.year, last.month, last.day, tzinfo=UTC) + timedelta(days=1)
+    return Period(start, end, text.strip())
+
+
+@dataclass(frozen=True)
+class AuditOptions:
+    """What to compare and how much to list."""
+
+    period: Period | None = None
+    against: Period | None = None
+    against_workspace: str | None = None
+    by: str | None = None
+    trend: str = "month"
+    top: int = 10
+    min_users: int = DEFAULT_MIN_USERS
+
+    def __post_init__(self) -> None:
+        if self.by is not None and self.by not in SEGMENTS:
+            raise ConfigError(f"--by {self.by!r}: give one of {', '.join(SEGMENTS)}")
+        if self.trend not in ("week", "month"):
+            raise ConfigError(f"--trend {self.trend!r}: give week or month")
+        if self.against is not None and self.against_workspace is not None:
+            raise ConfigError("give --against or --against-workspace, not both")
+
+
+@dataclass
+class PeriodCounts:
+    """Features and transitions of one period, by name: (occurrences, sessions, users)."""
+
+    period: Period
+    sessions: int
+    features: dict[tuple[str, ...], tuple[int, int, int]] = field(default_factory=dict)
+    transitions: dict[tuple[str, ...], tuple[int, int, int]] = field(default_factory=dict)
+    paths: SequenceDatabase | None = None
+    ids: dict[str, int] = field(default_factory=dict)
+
+
+def _counts(con: duckdb.DuckDBPyConnection, period: Period) -> PeriodCounts:
+    include = profile_included_automated(con)
+    names = feature_names(con)
+    params = {"start": period.start, "end": period.end, "include_automated": include}
+    counts = PeriodCounts(period, 0, ids={n: i for i, n in enumerate(names)})
+    for r in fetch_dicts(con, "list_period_items", **params):
+        value = (int(r["occurrences"]), int(r["sessions"]), int(r["users"]))
+        if r["k"] == 1:
+            counts.features[(names[r["a"]],)] = value
+        else:
+            counts.transitions[(names[r["a"]], names[r["b"]])] = value
+    table = fetch_arrow(con, "list_period_paths", **params)
+    column = table.column("path").combine_chunks()
+    weights = table.column("sessions").to_numpy().astype(np.int64)
+    if len(weights):
+        offsets = column.offsets.to_numpy(zero_copy_only=False).astype(np.int64)
+        items = column.flatten().to_numpy(zero_copy_only=False).astype(np.int32)
+        counts.paths = SequenceDatabase(items, offsets - offsets[0], weights)
+    counts.sessions = int(weights.sum())
+    return counts
+
+
+def _default_periods(con: duckdb.DuckDBPyConnection) -> tuple[Period, Period]:
+    row = fetch_dicts(con, "summarize_session_window", include_automated=profile_included_automated(con))[0]
+    if not row["sessions"]:
+        raise ConfigError("the workspace has no sessions to audit")
+    first, last = row["first_start"], row["last_start"]
+    middle = first + (last - first) / 2
+    return Period(middle, None, "recent half"), Period(None, middle, "earlier half")
+
+
+def _exercised(ws: Workspace) -> tuple[set[tuple[str, ...]], set[tuple[str, ...]], list[tuple[str, list[str]]]]:
+    """Exercised features and transitions (strict, by name) and each test's mapped journey."""
+    ws.require("suite_tests", hint="run `gapfinder suite TRACES... -w ...` first")
+    names = feature_names(ws.con)
+    features: set[tuple[str, ...]] = set()
+    transitions: set[tuple[str, ...]] = set()
+    journeys = []
+    for test_id, path in ws.con.execute("SELECT test_id, path FROM suite_tests ORDER BY test_id").fetchall():
+        framed = [START, *(names[e] if e >= 0 else None for e in path), END]
+        features.update((e,) for e in framed[1:-1] if e is not None)
+        transitions.update((a, b) for a, b in itertools.pairwise(framed) if a and b)
+        journeys.append((test_id, [names[e] for e in path if e >= 0]))
+    return features, transitions, journeys
+
+
+def _coverage(counts: PeriodCounts, exercised_f: set, exercised_t: set) -> dict[str, Any]:
+    out = {}
+    for metric, items, exercised in (
+        ("features", counts.features, exercised_f),
+        ("transitions", counts.transitions, exercised_t),
+    ):
+        total_occ = sum(v[0] for v in items.values())
+        total_ses = sum(v[1] for v in items.values())
+        hit = [v for k, v in items.items() if k in exercised]
+        out[metric] = {
+            "items": len(items),
+            "exercised": len(hit),
+            "unweighted": len(hit) / len(items) if items else None,
+            "by_occurrences": sum(v[0] for v in hit) / total_occ if total_occ else None,
+            "by_sessions": sum(v[1] for v in hit) / total_ses if total_ses else None,
+        }
+    return out
+
+
+def _distance(a: dict, b: dict) -> float | None:
+    keys = sorted(set(a) | set(b))
+    p = [a.get(k, (0,))[0] for k in keys]
+    q = [b.get(k, (0,))[0] for k in keys]
+    if not sum(p) or not sum(q):
+        return None
+    return jensen_shannon_distance(p, q)
+
+
+def _movers(now: PeriodCounts, before: PeriodCounts, min_users: int, top: int) -> dict[str, Any]:
+    rows: list[dict[str, Any]] = []
+    new: list[dict[str, Any]] = []
+    vanished: list[dict[str, Any]] = []
+    held_back = 0
+    for kind, a, b in (("feature", now.features, before.features), ("transition", now.transitions, before.transitions)):
+        for key in sorted(set(a) | set(b)):
+            x_now, x_before = a.get(key, (0, 0, 0)), b.get(key, (0, 0, 0))
+            if (x_now[1] and x_now[2] < min_users) or (x_before[1] and x_before[2] < min_users):
+                held_back += 1
+                continue
+            share_now = x_now[1] / now.sessions if now.sessions else 0.0
+            share_before = x_before[1] / before.sessions if before.sessions else 0.0
+            row: dict[str, Any] = {
+                "kind": kind,
+                "path": list(key),
+                "sessions_before": x_before[1],
+                "sessions_now": x_now[1],
+                "share_before": share_before,
+                "share_now": share_now,
+                "change": share_now - share_before,
+            }
+            if now.sessions and before.sessions:
+                low, high = difference_interval(x_now[1], now.sessions, x_before[1], before.sessions)
+                row["change_low"], row["change_high"] = low, high
+                row["p_value"] = two_proportion_z_test(x_now[1], now.sessions, x_before[1], before.sessions)[1]
+            rows.append(row)
+            if kind == "transition" and x_now[1] and not x_before[1]:
+                new.append({"path": list(key), "sessions": x_now[1], "users": x_now[2], "share": share_now})
+            if kind == "transition" and x_before[1] and not x_now[1]:
+                vanished.append(
+                    {"path": list(key), "sessions": x_before[1], "users": x_before[2], "share": share_before}
+                )
+    rows.sort(key=lambda r: (-abs(r["change"]), r["kind"], r["path"]))
+    new.sort(key=lambda r: (-r["sessions"], r["path"]))
+    vanished.sort(key=lambda r: (-r["sessions"], r["path"]))
+    return {"movers": rows[:top], "new": new[:top], "vanished": vanished[:top], "held_back": held_back}
+
+
+def _journey_sessions(counts: PeriodCounts, journeys: list[tuple[str, list[str]]]) -> dict[str, int]:
+    if counts.paths is None:
+        return {t: 0 for t, _ in journeys}
+    runnable = [(t, tuple(counts.ids[e] for e in j)) for t, j in journeys if j and all(e in counts.ids for e in j)]
+    which, seq = containing_sequences(
+        counts.paths, [p for _, p in runnable], max_gaps=[0] * len(runnable), framed=[False] * len(runnable)
+    )
+    totals = np.zeros(len(runnable), dtype=np.int64)
+    np.add.at(totals, which, counts.paths.weights[seq])
+    out = {t: 0 for t, _ in journeys}
+    out.update({t: int(totals[i]) for i, (t, _) in enumerate(runnable)})
+    return out
+
+
+def _grouped_coverage(
+    ws: Workspace, query: str, group: str, exercised_t: set, **params: Any
+) -> dict[Any, dict[str, int]]:
+    """Per group (bucket or segment value) of ``query``'s rows: transition occurrences, the part
+    the suite exercises, and the group's sessions and users."""
+    names = feature_names(ws.con)
+    rows = fetch_dicts(ws.con, query, include_automated=profile_included_automated(ws.con), **params)
+    groups: dict[Any, dict[str, int]] = {}
+    for r in rows:
+        g = groups.setdefault(
+            r[group],
+            {
+                "sessions": int(r.get(f"{group}_sessions") or 0),
+                "users": int(r.get(f"{group}_users") or 0),
+                "occ": 0,
+                "hit": 0,
+            },
+        )
+        g["occ"] += r["occurrences"]
+        if (names[r["a"]], names[r["b"]]) in exercised_t:
+            g["hit"] += r["occurrences"]
+    return groups
+
+
+def _trend(ws: Workspace, period: Period, unit: str, exercised_t: set) -> list[dict[str, Any]]:
+    buckets = _grouped_coverage(
+        ws, "list_bucket_transitions", "bucket", exercised_t, unit=unit, start=period.start, end=period.end
+    )
+    return [
+        {
+            "bucket": bucket.date().isoformat() if hasattr(bucket, "date") else str(bucket),
+            "sessions": b["sessions"],
+            "transitions_by_occurrences": b["hit"] / b["occ"] if b["occ"] else None,
+        }
+        for bucket, b in sorted(buckets.items())
+    ]
+
+
+def _segments(ws: Workspace, period: Period, by: str, exercised_t: set, min_users: int) -> list[dict[str, Any]]:
+    values = _grouped_coverage(
+        ws, "list_segment_transitions", "value", exercised_t, by=by, start=period.start, end=period.end
+    )
+    return [
+        {
+            "segment": by,
+            "value": value,
+            "sessions": v["sessions"],
+            "transitions_by_occurrences": v["hit"] / v["occ"] if v["occ"] else None,
+        }
+        for value, v in sorted(values.items(), key=lambda kv: -kv[1]["sessions"])
+        if v["users"] >= min_users
+    ]
+
+
+def audit(ws: Workspace, options: AuditOptions | None = None) -> dict[str, Any]:
+    """Compare the current period with an earlier one, or this workspace with another."""
+    options = options or AuditOptions()
+    ws.require("sessions", "features", hint="run `gapfinder profile TELEMETRY -w ...` first")
+    exercised_f, exercised_t, journeys = _exercised(ws)
+    if options.against_workspace:
+        current_period = options.period or Period(None, None, str(ws.path))
+        with Workspace(options.against_workspace, read_only=True) as other:
+            other.require("sessions", "features", hint="profile the other workspace first")
+            before = _counts(other.con, Period(None, None, options.against_workspace))
+    else:
+        default_now, default_before = _default_periods(ws.con)
+        current_period = options.period or default_now
+        before_period = options.against or default_before
+        before = _counts(ws.con, before_period)
+    now = _counts(ws.con, current_period)
+    moves = _movers(now, before, options.min_users, options.top)
+    journeys_now = _journey_sessions(now, journeys)
+    journeys_before = _journey_sessions(before, journeys)
+    irrelevant = [
+        {"test_id": t, "path": j, "sessions_before": journeys_before[t], "sessions_now": journeys_now[t]}
+        for t, j in journeys
+        if journeys_before[t] > 0 and journeys_now[t] == 0
+    ]
+    result: dict[str, Any] = {
+        "workspace": str(ws.path),
+        "current": {**now.period.as_dict(), "sessions": now.sessions},
+        "previous": {**before.period.as_dict(), "sessions": before.sessions},
+        "distance": {
+            "features": _distance(now.features, before.features),
+            "transitions": _distance(now.transitions, before.transitions),
+        },
+        "movers": moves["movers"],
+        "new": moves["new"],
+        "vanished": moves["vanished"],
+        "coverage": {
+            "previous": _coverage(before, exercised_f, exercised_t),
+            "current": _coverage(now, exercised_f, exercised_t),
+        },
+        "trend": _trend(ws, Period(None, None, "all"), options.trend, exercised_t),
+        "trend_unit": options.trend,
+        "irrelevant_tests": irrelevant,
+        "held_back": moves["held_back"],
+        "min_users": options.min_users,
+    }
+    if options.by:
+        result["segments"] = _segments(ws, now.period, options.by, exercised_t, options.min_users)
+    return result
+
+
+def audit_json(result: dict[str, Any]) -> str:
+    """The audit as stable JSON text."""
+    return json.dumps(result, indent=2, sort_keys=True, default=str)

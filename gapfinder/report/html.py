@@ -1,0 +1,328 @@
+"""One self-contained HTML page: no scripts, no fonts or images fetched, charts as inline SVG.
+
+gapfinder's look: a deep teal band for the title, warm paper background, slate text, amber for
+anything untested. The page is written as well-formed XHTML-compatible markup (every element
+closed, every attribute quoted) so that it can be checked with an XML parser.
+"""
+
+from __future__ import annotations
+
+import math
+from html import escape
+from typing import Any
+
+__all__ = ["render_html"]
+
+TEAL = "#0f5257"
+TEAL_LIGHT = "#5c9ea3"
+AMBER = "#d98a00"
+SLATE = "#2f3a40"
+MUTED = "#6b767c"
+PAPER = "#f7f5f0"
+CARD = "#ffffff"
+RULE = "#e3ded3"
+
+STYLE = f"""
+body {{ margin: 0; background: {PAPER}; color: {SLATE}; font: 15px/1.5 system-ui, -apple-system, "Segoe UI", sans-serif; }}
+header {{ background: {TEAL}; color: #fff; padding: 22px 40px 18px; }}
+header h1 {{ margin: 0; font-size: 24px; font-weight: 650; letter-spacing: 0.2px; }}
+header p {{ margin: 4px 0 0; color: #cfe3e4; }}
+main {{ max-width: 1120px; margin: 0 auto; padding: 8px 40px 40px; }}
+section {{ background: {CARD}; border: 1px solid {RULE}; border-radius: 10px; padding: 18px 22px; margin: 18px 0; }}
+h2 {{ margin: 0 0 10px; font-size: 18px; color: {TEAL}; }}
+.cards {{ display: flex; gap: 14px; flex-wrap: wrap; }}
+.card {{ flex: 1 1 180px; border: 1px solid {RULE}; border-radius: 8px; padding: 12px 14px; background: {PAPER}; }}
+.card .metric {{ color: {MUTED}; font-size: 13px; text-transform: uppercase; letter-spacing: 0.6px; }}
+.card .big {{ font-size: 30px; font-weight: 650; color: {TEAL}; }}
+.card .small {{ color: {MUTED}; font-size: 13px; }}
+table {{ border-collapse: collapse; width: 100%; font-size: 14px; }}
+th {{ text-align: left; color: {MUTED}; font-weight: 600; border-bottom: 2px solid {RULE}; padding: 6px 8px; }}
+td {{ border-bottom: 1px solid {RULE}; padding: 6px 8px; vertical-align: top; }}
+td.num, th.num {{ text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }}
+.path {{ font-family: ui-monospace, "SFMono-Regular", Menlo, monospace; font-size: 13px; }}
+.reason {{ color: {MUTED}; font-size: 13px; }}
+.untested {{ color: {AMBER}; font-weight: 600; }}
+.note {{ color: {MUTED}; font-size: 13px; margin: 8px 0 0; }}
+svg text {{ font-family: system-ui, -apple-system, "Segoe UI", sans-serif; }}
+"""
+
+
+def _pct(x: float | None, digits: int = 1) -> str:
+    return "—" if x is None else f"{100 * x:.{digits}f} %"
+
+
+def _path(path: list[str]) -> str:
+    return escape(" › ".join(path))
+
+
+def _coverage_bars(metrics: dict[str, Any], patterns_mined: bool) -> str:
+    rows = [(m, v["strict"]) for m, v in metrics.items() if m != "patterns" or patterns_mined]
+    width, label_w, bar_w, row_h = 760, 110, 480, 44
+    height = row_h * len(rows) + 30
+    out = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" role="img" '
+        f'aria-label="Coverage by metric">'
+    ]
+    for i, (metric, v) in enumerate(rows):
+        y = 10 + i * row_h
+        out.append(f'<text x="0" y="{y + 18}" font-size="14" fill="{SLATE}">{escape(metric)}</text>')
+        for j, (key, colour, name) in enumerate(
+            (("by_sessions", TEAL, "by sessions"), ("unweighted", TEAL_LIGHT, "distinct items"))
+        ):
+            value = v[key] or 0.0
+            yy = y + j * 17
+            out.append(f'<rect x="{label_w}" y="{yy + 4}" width="{bar_w}" height="13" fill="{RULE}" rx="3"/>')
+            out.append(
+                f'<rect x="{label_w}" y="{yy + 4}" width="{bar_w * value:.1f}" height="13" fill="{colour}" rx="3"/>'
+            )
+            out.append(
+                f'<text x="{label_w + bar_w + 8}" y="{yy + 15}" font-size="12" fill="{SLATE}">'
+                f"{_pct(v[key])} {name}</text>"
+            )
+    out.append("</svg>")
+    return "".join(out)
+
+
+def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
+    points = [
+        (t["bucket"], t["transitions_by_occurrences"]) for t in trend if t["transitions_by_occurrences"] is not None
+    ]
+    if len(points) < 2:
+        return '<p class="note">Not enough periods for a trend yet.</p>'
+    width, height, left, right, top, bottom = 760, 230, 56, 48, 16, 40
+    values = [v for _, v in points]
+    low = max(0.0, math.floor((min(values) - 0.02) * 20) / 20)
+    high = min(1.0, math.ceil((max(values) + 0.02) * 20) / 20)
+    if high - low < 0.05:
+        high = min(1.0, low + 0.05)
+    plot_w, plot_h = width - left - right, height - top - bottom
+
+    def x(i: int) -> float:
+        return left + plot_w * i / (len(points) - 1)
+
+    def y(v: float) -> float:
+        return top + plot_h * (1 - (v - low) / (high - low))
+
+    out = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" role="img" '
+        f'aria-label="Transition coverage by {escape(unit)}">'
+    ]
+    steps = 4
+    for k in range(steps + 1):
+        v = low + (high - low) * k / steps
+        out.append(f'<line x1="{left}" x2="{width - right}" y1="{y(v):.1f}" y2="{y(v):.1f}" stroke="{RULE}"/>')
+        out.append(
+            f'<text x="{left - 8}" y="{y(v) + 4:.1f}" font-size="11" fill="{MUTED}" text-anchor="end">{_pct(v, 0)}</text>'
+        )
+    line = " ".join(f"{x(i):.1f},{y(v):.1f}" for i, (_, v) in enumerate(points))
+    out.append(f'<polyline points="{line}" fill="none" stroke="{TEAL}" stroke-width="2.5"/>')
+    for i, (bucket, v) in enumerate(points):
+        out.append(f'<circle cx="{x(i):.1f}" cy="{y(v):.1f}" r="4" fill="{TEAL}"/>')
+        out.append(
+            f'<text x="{x(i):.1f}" y="{height - 18}" font-size="11" fill="{MUTED}" text-anchor="middle">{escape(bucket)}</text>'
+        )
+        out.append(
+            f'<text x="{x(i):.1f}" y="{y(v) - 9:.1f}" font-size="11" fill="{SLATE}" text-anchor="middle">{_pct(v)}</text>'
+        )
+    out.append("</svg>")
+    return "".join(out)
+
+
+def _diagram(diagram: dict[str, Any]) -> str:
+    nodes, edges = diagram["nodes"], diagram["edges"]
+    if not edges:
+        return '<p class="note">No transitions above the privacy floor to draw.</p>'
+    layers: dict[int, list[str]] = {}
+    for n in nodes:
+        layers.setdefault(n["layer"], []).append(n["name"])
+    col_w, row_h, box_w, box_h, margin, arc_room = 160, 52, 136, 30, 16, 90
+    width = margin * 2 + col_w * max(layers) + box_w
+    height = arc_room + row_h * max(len(v) for v in layers.values()) + 40
+    position: dict[str, tuple[float, float]] = {}
+    for layer, members in layers.items():
+        offset = arc_room + (height - arc_room - 40 - row_h * len(members)) / 2
+        for i, name in enumerate(members):
+            position[name] = (margin + layer * col_w, offset + i * row_h + (row_h - box_h) / 2)
+    heaviest = max(e["occurrences"] for e in edges)
+    out = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height}" width="100%" role="img" '
+        'aria-label="Most used paths; amber dashed transitions are untested">'
+    ]
+    for e in sorted(edges, key=lambda e: e["exercised"]):
+        x1, y1 = position[e["source"]]
+        x2, y2 = position[e["target"]]
+        sx, sy = float(x1 + box_w), float(y1 + box_h / 2)
+        tx, ty = float(x2), float(y2 + box_h / 2)
+        stroke = 1 + 7 * math.sqrt(e["occurrences"] / heaviest)
+        if x2 > x1:
+            d = f"M{sx:.1f},{sy:.1f} C{sx + 40:.1f},{sy:.1f} {tx - 40:.1f},{ty:.1f} {tx:.1f},{ty:.1f}"
+        else:  # a step back or within a column: arc over the boxes
+            sx, sy, tx, ty = x1 + box_w / 2.0, float(y1), x2 + box_w / 2.0, float(y2)
+            lift = min(30 + abs(x1 - x2) / 4, y1 - 4, y2 - 4)
+            d = f"M{sx:.1f},{sy:.1f} C{sx:.1f},{sy - lift:.1f} {tx:.1f},{ty - lift:.1f} {tx:.1f},{ty:.1f}"
+        colour, dash = (TEAL_LIGHT, "") if e["exercised"] else (AMBER, ' stroke-dasharray="6 4"')
+        title = (
+            f"{e['source']} › {e['target']}: {e['occurrences']:,} times, {'tested' if e['exercised'] else 'untested'}"
+        )
+        out.append(
+            f'<path d="{d}" fill="none" stroke="{colour}" stroke-width="{stroke:.1f}" stroke-opacity="0.8"{dash}>'
+            f"<title>{escape(title)}</title></path>"
+        )
+    for name, (x, y) in position.items():
+        fill = TEAL if name in ("START", "END") else CARD
+        text = "#fff" if name in ("START", "END") else SLATE
+        label = name if len(name) <= 19 else name[:18] + "…"
+        out.append(
+            f'<rect x="{x:.1f}" y="{y:.1f}" width="{box_w}" height="{box_h}" rx="6" fill="{fill}" stroke="{TEAL}"/>'
+        )
+        out.append(
+            f'<text x="{x + box_w / 2:.1f}" y="{y + 19:.1f}" font-size="12" fill="{text}" text-anchor="middle">'
+            f"{escape(label)}</text>"
+        )
+    out.append(
+        f'<text x="{margin}" y="{height - 8}" font-size="12" fill="{MUTED}">Line width: how often the transition is '
+        f"taken. Teal: a test exercises it. Amber, dashed: no test does.</text>"
+    )
+    out.append("</svg>")
+    return "".join(out)
+
+
+def _cards(coverage: dict[str, Any]) -> str:
+    out = ['<div class="cards">']
+    for metric, modes in coverage["metrics"].items():
+        if metric == "patterns" and not coverage["patterns_mined"]:
+            continue
+        v = modes["strict"]
+        out.append(
+            f'<div class="card"><div class="metric">{escape(metric)}</div><div class="big">{_pct(v["by_sessions"])}</div>'
+            f'<div class="small">of sessions\' {escape(metric)} exercised · {v["exercised"]:,} of {v["items"]:,} distinct</div></div>'
+        )
+    out.append("</div>")
+    return "".join(out)
+
+
+def _gaps_table(gaps: dict[str, Any]) -> str:
+    rows = [
+        '<table><thead><tr><th>#</th><th>untested path</th><th class="num">sessions</th><th class="num">users</th>'
+        '<th class="num">share (95 % interval)</th><th class="num">errors</th><th>trend</th></tr></thead><tbody>'
+    ]
+    for g in gaps["gaps"]:
+        lift = f" ({g['error_lift']:.1f}×)" if g.get("error_lift") and g["risk"] > 1 else ""
+        folded = ""
+        if g["folded"]:
+            folded = f'<br/><span class="reason">also untested in the same sessions: {len(g["folded"])} related path(s)</span>'
+        rows.append(
+            f'<tr><td class="num">{g["rank"]}</td><td><span class="path untested">{_path(g["path"])}</span>'
+            f'<br/><span class="reason">{escape(g["reason"])}</span>{folded}</td>'
+            f'<td class="num">{g["sessions"]:,}</td><td class="num">{g["users"]:,}</td>'
+            f'<td class="num">{_pct(g["share"])}<br/><span class="reason">{100 * g["share_low"]:.1f}–{100 * g["share_high"]:.1f}</span></td>'
+            f'<td class="num">{_pct(g["error_rate"])}{lift}</td><td>{escape(g["trend"]["label"])}</td></tr>'
+        )
+    rows.append("</tbody></table>")
+    rows.append(
+        f'<p class="note">Score: {escape(gaps["score"])}. {gaps["suppressed"]:,} candidate paths held back: fewer than '
+        f"{gaps['min_users']} users.</p>"
+    )
+    return "".join(rows)
+
+
+def _plan_section(plan: dict[str, Any] | None) -> str:
+    if not plan or not plan.get("scenarios"):
+        return '<p class="note">No plan stored yet: run <span class="path">gapfinder plan -w WORKSPACE --budget N</span>.</p>'
+    rows = [
+        f"<p>{len(plan['scenarios'])} scenario(s) within {plan['budget']} {escape(plan['cost'])}, adding "
+        f"{_pct(plan['gain_share'])} of untested {escape(plan['objective'])} (field occurrences). "
+        f"Guarantee: {escape(plan['guarantee'])}.</p>",
+        '<table><thead><tr><th>#</th><th>scenario</th><th class="num">steps</th><th class="num">adds</th>'
+        "<th>closes gaps</th></tr></thead><tbody>",
+    ]
+    for s in plan["scenarios"]:
+        rows.append(
+            f'<tr><td class="num">{s["scenario"]}</td><td class="path">{_path(s["path"])}</td>'
+            f'<td class="num">{s["steps"]}</td><td class="num">{_pct(s["gain_share"])}</td>'
+            f"<td>{escape(', '.join('#' + str(g) for g in s['gaps']))}</td></tr>"
+        )
+    rows.append(
+        '</tbody></table><table><thead><tr><th>metric</th><th class="num">now</th><th class="num">after the plan</th></tr></thead><tbody>'
+    )
+    for metric, v in plan["coverage"].items():
+        rows.append(
+            f'<tr><td>{escape(metric)}</td><td class="num">{_pct(v["before"])}</td><td class="num">{_pct(v["after"])}</td></tr>'
+        )
+    rows.append("</tbody></table>")
+    return "".join(rows)
+
+
+def _drift_section(drift: dict[str, Any]) -> str:
+    current, previous = drift["current"], drift["previous"]
+    distance = drift["distance"]
+    cov_now = drift["coverage"]["current"]["transitions"]["by_occurrences"]
+    cov_before = drift["coverage"]["previous"]["transitions"]["by_occurrences"]
+    span = lambda p: escape(f"{p['from'] or 'start'} to {p['to'] or 'end'}")  # noqa: E731
+    out = [
+        f"<p>{span(current)} ({current['sessions']:,} sessions) against {span(previous)} ({previous['sessions']:,}). "
+        f"Jensen–Shannon distance (0 = same usage, 1 = nothing in common): features "
+        f"{distance['features']:.3f}, transitions {distance['transitions']:.3f}. Transition coverage by occurrences "
+        f"{_pct(cov_before)} → {_pct(cov_now)}.</p>"
+        if distance["features"] is not None and distance["transitions"] is not None
+        else "<p>Not enough sessions in both periods to compare.</p>",
+        '<table><thead><tr><th>moved most</th><th class="num">share before</th><th class="num">share now</th>'
+        '<th class="num">change (95 % interval)</th><th class="num">p</th></tr></thead><tbody>',
+    ]
+    for m in drift["movers"]:
+        interval = f"{100 * m['change_low']:+.1f}…{100 * m['change_high']:+.1f}" if "change_low" in m else ""
+        p = f"{m['p_value']:.2g}" if "p_value" in m else ""
+        out.append(
+            f'<tr><td class="path">{_path(m["path"])}</td><td class="num">{_pct(m["share_before"])}</td>'
+            f'<td class="num">{_pct(m["share_now"])}</td><td class="num">{100 * m["change"]:+.1f} pt<br/>'
+            f'<span class="reason">{interval}</span></td><td class="num">{p}</td></tr>'
+        )
+    out.append("</tbody></table>")
+    if drift["irrelevant_tests"]:
+        listed = ", ".join(escape(t["test_id"]) for t in drift["irrelevant_tests"])
+        out.append(f'<p class="note">Tests whose journey left the field: {listed}.</p>')
+    return "".join(out)
+
+
+def render_html(data: dict[str, Any]) -> str:
+    """The report page for ``report_data(...)``."""
+    profile, coverage = data["profile"], data["coverage"]
+    sessions = profile["sessions"]
+    reading = profile["reading"]
+    period = f"{(reading.get('first_ts') or '')[:10]} to {(reading.get('last_ts') or '')[:10]}"
+    parts = [
+        "<!DOCTYPE html>",
+        '<html xmlns="http://www.w3.org/1999/xhtml" lang="en"><head><meta charset="utf-8"/>',
+        '<meta name="viewport" content="width=device-width, initial-scale=1"/>',
+        "<title>gapfinder · test coverage against real usage</title>",
+        f"<style>{STYLE}</style></head><body>",
+        "<header><h1>Test coverage against real usage</h1>",
+        f"<p>{sessions['count']:,} sessions of {sessions['users']:,} users, {escape(period)} · "
+        f"{coverage['test_count']} tests · gapfinder {escape(data['version'])}</p></header><main>",
+        "<section><h2>How much of real usage the tests exercise</h2>",
+        _cards(coverage),
+        _coverage_bars(coverage["metrics"], coverage["patterns_mined"]),
+        '<p class="note">By sessions: the share of sessions\' items (features, transitions, contiguous paths, mined '
+        "journeys) that falls on items some test exercises, each item weighted by the sessions that contain it. "
+        "Distinct items: the plain share of distinct items.</p></section>",
+        f"<section><h2>Coverage by {escape(data['drift']['trend_unit'])}</h2>",
+        _trend_chart(data["drift"]["trend"], data["drift"]["trend_unit"]),
+        '<p class="note">Share of transition occurrences that the current suite exercises, per period of session start.</p></section>',
+        "<section><h2>Where people go and the tests do not</h2>",
+        _diagram(data["diagram"]),
+        "</section>",
+        "<section><h2>Untested paths most worth a test</h2>",
+        _gaps_table(data["gaps"]),
+        "</section>",
+        "<section><h2>Next sprint's scenarios</h2>",
+        _plan_section(data["plan"]),
+        "</section>",
+        "<section><h2>How usage moved</h2>",
+        _drift_section(data["drift"]),
+        "</section>",
+        '<p class="note">No user ids are shown; paths taken by fewer than '
+        f"{data['gaps']['min_users']} distinct users are held back. Pseudonymized telemetry is still personal data: "
+        "handle this report under your data-protection rules.</p>",
+        "</main></body></html>",
+    ]
+    return "\n".join(parts) + "\n"

@@ -1,0 +1,115 @@
+"""The report as Markdown, for a pull request or a wiki page (same content as the HTML, as tables)."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+__all__ = ["markdown_path", "percent", "render_markdown"]
+
+
+def percent(x: float | None) -> str:
+    """A fraction as a percentage with one decimal, or a dash when there is none."""
+    return "—" if x is None else f"{100 * x:.1f} %"
+
+
+def markdown_path(path: Sequence[str]) -> str:
+    """A path as code spans joined by ' › '."""
+    return " › ".join(f"`{p}`" for p in path)
+
+
+_pct, _path = percent, markdown_path
+
+
+def render_markdown(data: dict[str, Any]) -> str:
+    """The report page for ``report_data(...)`` in Markdown."""
+    profile, coverage, gaps, plan, drift = (data[k] for k in ("profile", "coverage", "gaps", "plan", "drift"))
+    sessions, reading = profile["sessions"], profile["reading"]
+    lines = [
+        "# Test coverage against real usage",
+        "",
+        f"{sessions['count']:,} sessions of {sessions['users']:,} users, {(reading.get('first_ts') or '')[:10]} to "
+        f"{(reading.get('last_ts') or '')[:10]}; {coverage['test_count']} tests; gapfinder {data['version']}.",
+        "",
+        "## Coverage",
+        "",
+        "| metric | by sessions | by occurrences | distinct items |",
+        "|---|---|---|---|",
+    ]
+    for metric, modes in coverage["metrics"].items():
+        if metric == "patterns" and not coverage["patterns_mined"]:
+            continue
+        v = modes["strict"]
+        lines.append(
+            f"| {metric} | {_pct(v['by_sessions'])} | {_pct(v['by_occurrences'])} | "
+            f"{_pct(v['unweighted'])} ({v['exercised']:,} of {v['items']:,}) |"
+        )
+    lines += [
+        "",
+        f"## Coverage by {drift['trend_unit']}",
+        "",
+        "| from | sessions | transitions exercised |",
+        "|---|---|---|",
+    ]
+    lines += [
+        f"| {t['bucket']} | {t['sessions']:,} | {_pct(t['transitions_by_occurrences'])} |" for t in drift["trend"]
+    ]
+    lines += [
+        "",
+        "## Untested paths most worth a test",
+        "",
+        "| # | path | sessions | users | share (95 % interval) | errors | trend |",
+        "|---|---|---|---|---|---|---|",
+    ]
+    for g in gaps["gaps"]:
+        lines.append(
+            f"| {g['rank']} | {_path(g['path'])} | {g['sessions']:,} | {g['users']:,} | {_pct(g['share'])} "
+            f"({100 * g['share_low']:.1f}–{100 * g['share_high']:.1f}) | {_pct(g['error_rate'])} | {g['trend']['label']} |"
+        )
+    lines += [
+        "",
+        f"Score: {gaps['score']}. {gaps['suppressed']:,} candidates held back: fewer than {gaps['min_users']} users.",
+        "",
+    ]
+    lines += ["## Next sprint's scenarios", ""]
+    if plan and plan.get("scenarios"):
+        lines += [
+            f"Budget {plan['budget']} {plan['cost']}; adds {_pct(plan['gain_share'])} of untested {plan['objective']}. "
+            f"Guarantee: {plan['guarantee']}.",
+            "",
+            "| # | scenario | steps | adds | closes gaps |",
+            "|---|---|---|---|---|",
+        ]
+        lines += [
+            f"| {s['scenario']} | {_path(s['path'])} | {s['steps']} | {_pct(s['gain_share'])} | "
+            f"{', '.join('#' + str(g) for g in s['gaps'])} |"
+            for s in plan["scenarios"]
+        ]
+    else:
+        lines.append("No plan stored yet: run `gapfinder plan -w WORKSPACE --budget N`.")
+    current, previous, distance = drift["current"], drift["previous"], drift["distance"]
+    lines += [
+        "",
+        "## How usage moved",
+        "",
+        f"{current['from'] or 'start'} to {current['to'] or 'end'} ({current['sessions']:,} sessions) against "
+        f"{previous['from'] or 'start'} to {previous['to'] or 'end'} ({previous['sessions']:,}).",
+    ]
+    if distance["features"] is not None and distance["transitions"] is not None:
+        lines.append(
+            f"Jensen–Shannon distance: features {distance['features']:.3f}, transitions {distance['transitions']:.3f} "
+            "(0 = same usage, 1 = nothing in common)."
+        )
+    lines += ["", "| moved most | share before | share now | change | p |", "|---|---|---|---|---|"]
+    for m in drift["movers"]:
+        p = f"{m['p_value']:.2g}" if "p_value" in m else ""
+        lines.append(
+            f"| {_path(m['path'])} | {_pct(m['share_before'])} | {_pct(m['share_now'])} | {100 * m['change']:+.1f} pt | {p} |"
+        )
+    lines += [
+        "",
+        f"No user ids are shown; paths taken by fewer than {gaps['min_users']} distinct users are held back. "
+        "Pseudonymized telemetry is still personal data.",
+        "",
+    ]
+    return "\n".join(lines)

@@ -1,0 +1,52 @@
+"""audit, check and report through click's CliRunner: output, exit codes 0 / 1 / 2."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from click.testing import CliRunner
+
+from gapfinder.cli import cli
+from tests.helpers import SAMPLE
+
+
+def invoke(*args: str) -> object:
+    return CliRunner().invoke(cli, list(args))
+
+
+def with_suite(ws: str) -> str:
+    assert invoke("suite", str(SAMPLE / "tests" / "suite_traces.csv"), "-w", ws).exit_code == 0
+    return ws
+
+
+def test_audit_json_and_table(ws: str) -> None:
+    with_suite(ws)
+    args = ["audit", "-w", ws, "--period", "2026-04-01..2026-06-30", "--against", "2026-01-01..2026-03-31"]
+    result = invoke(*args, "--format", "json")
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.stdout)["movers"][0]["path"][0] == "join_waitlist"
+    table = invoke(*args, "--by", "app_version")
+    assert table.exit_code == 0 and "Moved most" in table.stdout and "Coverage by segment" in table.stdout
+
+
+def test_check_exit_codes(ws: str) -> None:
+    with_suite(ws)
+    failing = invoke("check", "-w", ws, "--min-coverage", "transitions=0.999")
+    assert failing.exit_code == 1 and "FAIL" in failing.stdout and "coverage gate failed" in failing.stdout
+    passing = invoke("check", "-w", ws, "--min-coverage", "transitions=0.5", "--format", "json")
+    assert passing.exit_code == 0 and json.loads(passing.stdout)["passed"] is True
+    bad = invoke("check", "-w", ws, "--min-coverage", "transitions=eighty")
+    assert bad.exit_code == 2 and "--min-coverage" in bad.stderr
+    nothing = invoke("check", "-w", ws)
+    assert nothing.exit_code == 2 and "nothing to check" in nothing.stderr
+
+
+def test_report_writes_html_and_markdown(ws: str, tmp_path: Path) -> None:
+    with_suite(ws)
+    html, md = tmp_path / "coverage.html", tmp_path / "coverage.md"
+    result = invoke("report", "-w", ws, "-o", str(html), "--markdown", str(md))
+    assert result.exit_code == 0, result.output
+    assert html.read_text().startswith("<!DOCTYPE html>") and md.read_text().startswith("# Test coverage")
+    missing = invoke("report", "-w", ws)
+    assert missing.exit_code == 2
