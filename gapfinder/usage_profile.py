@@ -158,6 +158,7 @@ def profile_telemetry(
             "pseudonymized": options.pseudonymize_key is not None,
         }
         with ws.stage(record) as con:
+            cleared = _clear_dependent_stages(ws)
             say("forming sessions")
             build_sessions(
                 con,
@@ -173,6 +174,7 @@ def profile_telemetry(
             run(con, "upsert_meta", key="profile_reading", value=json.dumps(reading, sort_keys=True))
             con.unregister("mapped_source")
             summary = summarize_profile(ws, top=top, min_users=min_users)
+            summary["cleared"] = cleared
             record.row_counts = {
                 "rows_read": counts.rows_read,
                 "sessions": summary["sessions"]["count"],
@@ -180,6 +182,28 @@ def profile_telemetry(
                 "features": summary["features"]["count"],
             }
         return summary
+
+
+# Stages whose tables hold event ids of the profile they were built on, with their meta keys.
+_DEPENDENT_STAGES = {
+    "suite": ((("suite_tests", "drop_suite_tests"), ("suite_steps", "drop_suite_steps")), "suite_reading"),
+    "patterns": ((("patterns", "drop_patterns"),), "patterns_parameters"),
+    "plan": ((("plan_scenarios", "drop_plan_scenarios"),), "plan"),
+}
+
+
+def _clear_dependent_stages(ws: Workspace) -> list[str]:
+    """Drop the suite, patterns and plan of an earlier profile: a new profile renumbers events, so
+    their event ids would silently point at other features. Returns the stages cleared."""
+    cleared = []
+    for stage, (tables, meta_key) in _DEPENDENT_STAGES.items():
+        present = [query for table, query in tables if ws.has_table(table)]
+        for query in present:
+            run(ws.con, query)
+        run(ws.con, "delete_meta", key=meta_key)
+        if present:
+            cleared.append(stage)
+    return cleared
 
 
 def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_MIN_USERS) -> dict[str, Any]:

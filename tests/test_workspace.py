@@ -33,3 +33,23 @@ def test_pseudonymized_labels_hide_ids(tmp_path: Path, shop_events: Path) -> Non
     profile_telemetry([shop_events], ws, ProfileOptions(pseudonymize_key=b"k" * 32), min_users=1)
     labels = [r[0] for r in duckdb.connect(str(ws), read_only=True).execute("SELECT user_label FROM users").fetchall()]
     assert all(len(label) == 64 and not label.startswith("u") for label in labels)
+
+
+def test_a_new_profile_clears_stages_built_on_the_old_event_numbering(tmp_path: Path, shop_events: Path) -> None:
+    """Re-profiling renumbers events; a stored suite or pattern set would then point at other features."""
+    from gapfinder.patterns import MiningOptions, mine_workspace
+    from gapfinder.suite import load_suite
+    from gapfinder.usage_profile import ProfileOptions, profile_telemetry
+    from gapfinder.workspace import Workspace
+
+    ws_path = tmp_path / "ws.duckdb"
+    profile_telemetry([shop_events], ws_path, ProfileOptions(), min_users=1)
+    catalog = tmp_path / "tests.yaml"
+    catalog.write_text("tests:\n  - id: t\n    steps: [open, list, item]\n")
+    with Workspace(ws_path) as ws:
+        load_suite(ws, [catalog])
+        mine_workspace(ws, MiningOptions(min_support=1))
+    summary = profile_telemetry([shop_events], ws_path, ProfileOptions(), min_users=1)
+    assert summary["cleared"] == ["suite", "patterns"]
+    with Workspace(ws_path, read_only=True) as ws:
+        assert not ws.has_table("suite_tests") and not ws.has_table("patterns")

@@ -117,6 +117,11 @@ def render_profile(summary: dict[str, Any], console: Console) -> None:
             )
     else:
         console.print("automated traffic: none flagged")
+    if summary.get("cleared"):
+        console.print(
+            f"[yellow]cleared[/] the earlier {', '.join(summary['cleared'])} (they referred to the previous profile's "
+            "event numbering): run `gapfinder suite` and the later stages again"
+        )
 
 
 _KIND_TITLES = {

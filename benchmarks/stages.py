@@ -1,4 +1,4 @@
-"""Benchmark of the stages after profile — suite, paths --kind patterns, coverage, gaps — on demo data.
+"""Benchmark of the stages after profile — suite, patterns, coverage, gaps, plan, audit, report — on demo data.
 
 For each size: generate demo telemetry, profile it once, then alternate runs of a floor and of each
 stage, every one in a fresh process, and print medians of wall time, peak memory, the ratio to
@@ -64,6 +64,9 @@ def main() -> None:
                 "patterns": [gapfinder, "paths", "-w", ws, "--kind", "patterns", "--format", "json"],
                 "coverage": [gapfinder, "coverage", "-w", ws, "--max-gap", "1", "--format", "json"],
                 "gaps": [gapfinder, "gaps", "-w", ws, "--top", "20", "--format", "json"],
+                "plan": [gapfinder, "plan", "-w", ws, "--budget", "8", "--format", "json"],
+                "audit": [gapfinder, "audit", "-w", ws, "--by", "platform", "--format", "json"],
+                "report": [gapfinder, "report", "-w", ws, "-o", str(Path(tmp) / f"r{size}.html")],
             }
             results: dict[str, list[tuple[float, float]]] = {name: [] for name in stages}
             for _ in range(args.runs):
@@ -76,7 +79,7 @@ def main() -> None:
                 peak = max(m for _, m in results[name])
                 medians.setdefault(name, {})[size] = median
                 line.append(f"{name} {median:5.2f} s ({median / floor:4.1f}x, {peak:4.2f} GB)")
-            print("  ".join(line) + f"  (medians of {args.runs})", flush=True)
+            print("\n    ".join(line) + f"\n    (medians of {args.runs})", flush=True)
     if len(args.sizes) > 1:
         small, large = min(args.sizes), max(args.sizes)
         print(

@@ -1,0 +1,3 @@
+-- Drops the plan_scenarios table, which holds event ids of an earlier profile (a new profile renumbers
+-- events). Parameters: none.
+DROP TABLE IF EXISTS plan_scenarios;

@@ -1,0 +1,3 @@
+-- Drops the suite_steps table, which holds event ids of an earlier profile (a new profile renumbers
+-- events). Parameters: none.
+DROP TABLE IF EXISTS suite_steps;
