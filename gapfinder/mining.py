@@ -32,6 +32,8 @@ closed-pattern definition).
 from __future__ import annotations
 
 import math
+import types
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -42,6 +44,7 @@ from gapfinder.errors import ConfigError
 
 __all__ = [
     "DEFAULT_MAX_PATTERNS",
+    "ENGINES",
     "PatternSet",
     "SequenceDatabase",
     "containing_sequences",
@@ -645,7 +648,12 @@ def _match_kernel(  # pragma: no cover - compiled
 
 
 def containing_sequences(
-    db: SequenceDatabase, patterns: list[tuple[int, ...]], *, max_gaps: list[int | None], framed: list[bool]
+    db: SequenceDatabase,
+    patterns: list[tuple[int, ...]],
+    *,
+    max_gaps: list[int | None],
+    framed: list[bool],
+    engine: str = "auto",
 ) -> tuple[np.ndarray, np.ndarray]:
     """Which sequences contain which pattern: arrays (pattern index, sequence index).
 
@@ -668,7 +676,9 @@ def containing_sequences(
         return np.zeros(0, np.int64), np.zeros(0, np.int64)
     if (lengths == 0).any():
         raise ValueError("patterns must have at least one event")
-    result: tuple[np.ndarray, np.ndarray] = _match_kernel(
+    small = _use_python(engine, len(db.items)) and (engine == "python" or len(db.items) * len(patterns) <= 500_000)
+    matcher = _match_python if small else _match_kernel
+    result: tuple[np.ndarray, np.ndarray] = matcher(
         np.ascontiguousarray(db.items, dtype=_I32),
         np.ascontiguousarray(db.starts, dtype=_I64),
         flat,
@@ -677,6 +687,38 @@ def containing_sequences(
         np.array(framed, dtype=np.bool_),
     )
     return result
+
+
+# Small inputs run the very same kernels as plain Python: numba's first call in a process costs about
+# half a second (setting up its compiler target), far more than mining a few hundred distinct paths
+# takes in Python. The twins are the kernels' own code (``py_func``) with every compiled helper they
+# call swapped for its plain-Python original, so the two engines cannot drift apart.
+PYTHON_ENGINE_MAX_POSITIONS = 4_096  # events in distinct paths
+PYTHON_ENGINE_MAX_ROWS = 20_000  # patterns (beyond, the compiled kernel takes over)
+ENGINES = ("auto", "compiled", "python")
+
+
+def _python_twin(kernel: Any, *helpers: Any) -> Callable[..., Any]:
+    module_globals = dict(kernel.py_func.__globals__)
+    module_globals.update({h.py_func.__name__: h.py_func for h in helpers})
+    plain = types.FunctionType(kernel.py_func.__code__, module_globals, kernel.py_func.__name__)
+
+    def twin(*args: Any) -> Any:
+        with np.errstate(over="ignore"):  # 64-bit hashes wrap around, as they do when compiled
+            return plain(*args)
+
+    return twin
+
+
+_mine_python = _python_twin(_mine_kernel, _grow, _grow_rows, _scan, _heap_push)
+_closed_flags_python = _python_twin(_closed_flags, _row_hash)
+_match_python = _python_twin(_match_kernel, _state_at, _grow)
+
+
+def _use_python(engine: str, positions: int) -> bool:
+    if engine not in ENGINES:
+        raise ConfigError(f"engine {engine!r}: give one of {', '.join(ENGINES)}")
+    return engine == "python" or (engine == "auto" and positions <= PYTHON_ENGINE_MAX_POSITIONS)
 
 
 def _sequence_of_position(db: SequenceDatabase) -> np.ndarray:
@@ -695,12 +737,13 @@ def _run_kernel(
     top_k: int,
     check_closure: bool,
     max_rows: int,
+    engine: str = "auto",
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     has_users = db.user_ptr is not None and db.user_ids is not None and len(db.user_ids) > 0
     user_ptr = db.user_ptr if has_users else np.zeros(db.sequence_count + 1, dtype=_I64)
     user_ids = db.user_ids if has_users else np.zeros(1, dtype=_I32)
     user_count = int(user_ids.max()) + 1 if has_users else 0  # type: ignore[union-attr]
-    out_items, out_len, out_support, out_users, _rows, stopped = _mine_kernel(
+    arguments: list[Any] = [
         np.ascontiguousarray(db.items, dtype=_I32),
         np.ascontiguousarray(db.starts, dtype=_I64),
         seq_of,
@@ -716,7 +759,18 @@ def _run_kernel(
         np.ascontiguousarray(user_ptr, dtype=_I64),
         np.ascontiguousarray(user_ids, dtype=_I32),
         user_count,
-    )
+    ]
+    stopped = True
+    if _use_python(engine, len(db.items)):
+        cap = max_rows if engine == "python" else min(max_rows, PYTHON_ENGINE_MAX_ROWS)
+        out_items, out_len, out_support, out_users, _rows, stopped = _mine_python(*arguments[:11], cap, *arguments[12:])
+        if stopped and cap < max_rows:  # too much work for plain Python: let the compiled kernel finish it
+            stopped = True
+            engine = "compiled"
+        elif not stopped:
+            return out_items, out_len, out_support, out_users
+    if engine != "python":
+        out_items, out_len, out_support, out_users, _rows, stopped = _mine_kernel(*arguments)
     if stopped:
         raise ConfigError(
             f"more than {max_rows:,} patterns qualify: raise --min-support, lower --max-length, "
@@ -735,6 +789,7 @@ def mine_patterns(
     closed: bool = False,
     top_k: int | None = None,
     max_patterns: int = DEFAULT_MAX_PATTERNS,
+    engine: str = "auto",
 ) -> PatternSet:
     """Mine the patterns contained in at least ``min_support`` sessions.
 
@@ -756,6 +811,10 @@ def mine_patterns(
         event ids), found with a support threshold that rises during the search.
     max_patterns:
         Stop with a ConfigError rather than return more rows than this (pattern explosion).
+    engine:
+        ``compiled`` (numba), ``python`` (the same kernel as plain Python) or ``auto``: plain
+        Python for inputs of at most 4,096 events in distinct paths, where it finishes before the
+        compiled kernel would have started, and the compiled kernel otherwise.
 
     Returns
     -------
@@ -792,7 +851,9 @@ def mine_patterns(
     if db.sequence_count == 0 or len(db.items) == 0:
         return _empty(parameters)
     seq_of = _sequence_of_position(db)
-    run = dict(min_length=min_length, max_length=max_length, max_gap=gap, max_rows=max_patterns)
+    run: dict[str, Any] = dict(
+        min_length=min_length, max_length=max_length, max_gap=gap, max_rows=max_patterns, engine=engine
+    )
 
     if not closed:
         if top_k:
@@ -809,7 +870,8 @@ def mine_patterns(
             threshold = max(min_support, _kth_support(first[2], top_k))
         while True:
             rows = _run_kernel(db, seq_of, min_support=threshold, top_k=0, check_closure=True, **run)
-            flags = _closed_flags(rows[0], rows[1], rows[2])
+            closure = _closed_flags_python if _use_python(engine, len(rows[1])) else _closed_flags
+            flags = closure(rows[0], rows[1], rows[2])
             result = _assemble(*rows, closed_flags=flags, top_k=top_k)
             if not top_k or len(result) >= top_k or threshold <= min_support:
                 break
@@ -828,6 +890,7 @@ def _top_k_rows(
     max_length: int,
     max_gap: int,
     max_rows: int,
+    engine: str = "auto",
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Top-k rows by iterative deepening on pattern length.
 
@@ -849,6 +912,7 @@ def _top_k_rows(
             max_length=length,
             max_gap=max_gap,
             max_rows=max_rows,
+            engine=engine,
         )
         seed = max(seed, _kth_support(rows[2], top_k))
         if length == max_length or not bool((rows[1] == length).any()):

@@ -48,6 +48,7 @@ def brute_force_closed(
 sequences = st.lists(st.lists(st.integers(0, 3), max_size=7), min_size=1, max_size=8)
 
 
+@pytest.mark.parametrize("engine", ["compiled", "python"])
 @settings(max_examples=150, deadline=None)
 @given(
     db=sequences,
@@ -57,14 +58,54 @@ sequences = st.lists(st.lists(st.integers(0, 3), max_size=7), min_size=1, max_si
     max_gap=st.sampled_from([None, 0, 1, 2]),
 )
 def test_frequent_and_closed_equal_brute_force(
-    db: list[list[int]], data: st.DataObject, min_support: int, max_length: int, max_gap: int | None
+    engine: str, db: list[list[int]], data: st.DataObject, min_support: int, max_length: int, max_gap: int | None
 ) -> None:
     weights = data.draw(st.lists(st.integers(1, 3), min_size=len(db), max_size=len(db)))
     database = SequenceDatabase.from_sequences(db, weights)
-    found = mine_patterns(database, min_support=min_support, max_length=max_length, max_gap=max_gap)
+    options = {"min_support": min_support, "max_length": max_length, "max_gap": max_gap, "engine": engine}
+    found = mine_patterns(database, **options)
     assert found.as_dict() == brute_force(db, weights, min_support, max_length, max_gap)
-    closed = mine_patterns(database, min_support=min_support, max_length=max_length, max_gap=max_gap, closed=True)
+    closed = mine_patterns(database, closed=True, **options)
     assert closed.as_dict() == brute_force_closed(db, weights, min_support, max_length, max_gap)
+
+
+@pytest.mark.parametrize(
+    ("max_gap", "closed", "top_k"), [(None, False, None), (2, True, None), (1, False, 50), (None, True, 20)]
+)
+def test_both_engines_agree_on_a_larger_input(max_gap: int | None, closed: bool, top_k: int | None) -> None:
+    rng = np.random.default_rng(5)
+    sequences = [rng.integers(0, 12, size=rng.integers(1, 15)).tolist() for _ in range(300)]
+    db = SequenceDatabase.from_sequences(sequences, rng.integers(1, 4, size=300).tolist())
+    options = {"min_support": 25, "max_length": 4, "max_gap": max_gap, "closed": closed, "top_k": top_k}
+    compiled = mine_patterns(db, engine="compiled", **options)
+    python = mine_patterns(db, engine="python", **options)
+    assert compiled.paths == python.paths and len(compiled) >= 20
+    assert compiled.sessions.tolist() == python.sessions.tolist()
+
+
+@pytest.mark.parametrize("engine", ["compiled", "python"])
+@settings(max_examples=100, deadline=None)
+@given(db=sequences, data=st.data())
+def test_containing_sequences_equals_a_plain_check(engine: str, db: list[list[int]], data: st.DataObject) -> None:
+    from gapfinder.coverage import occurs_in
+    from gapfinder.mining import containing_sequences
+
+    patterns = data.draw(
+        st.lists(st.lists(st.integers(0, 3), min_size=1, max_size=4).map(tuple), min_size=1, max_size=5)
+    )
+    gaps = data.draw(st.lists(st.sampled_from([None, 0, 1, 2]), min_size=len(patterns), max_size=len(patterns)))
+    framed = data.draw(st.lists(st.booleans(), min_size=len(patterns), max_size=len(patterns)))
+    which, seq = containing_sequences(
+        SequenceDatabase.from_sequences(db), patterns, max_gaps=gaps, framed=framed, engine=engine
+    )
+    got = set(zip(which.tolist(), seq.tolist(), strict=True))
+    want = {
+        (i, j)
+        for i, p in enumerate(patterns)
+        for j, s in enumerate(db)
+        if occurs_in(p, ([0, *s, 1] if framed[i] else s), gaps[i])
+    }
+    assert got == want
 
 
 @settings(max_examples=150, deadline=None)
@@ -163,7 +204,14 @@ def test_min_support_rejects_nonsense(value: float) -> None:
 
 @pytest.mark.parametrize(
     "kwargs",
-    [{"min_support": 0}, {"max_gap": -1}, {"min_length": 3, "max_length": 2}, {"max_length": 65}, {"top_k": 0}],
+    [
+        {"min_support": 0},
+        {"max_gap": -1},
+        {"min_length": 3, "max_length": 2},
+        {"max_length": 65},
+        {"top_k": 0},
+        {"engine": "gpu"},
+    ],
 )
 def test_bad_options_are_config_errors(kwargs: dict) -> None:
     with pytest.raises(ConfigError):
