@@ -674,8 +674,9 @@ def gaps(workspace: str, top: int, min_users: int, kinds: tuple[str, ...], max_g
     type=click.IntRange(min=0),
     help="Other events a session may have between the test's steps (0: one contiguous run).",
 )
+@min_users_option("journeys")
 @output_options
-def unused(workspace: str, max_share: float, max_gap: int, output_format: str) -> None:
+def unused(workspace: str, max_share: float, max_gap: int, min_users: int, output_format: str) -> None:
     """Tested paths the field rarely or never takes: candidates to run less often.
 
     For each test, counts the sessions that take its journey (its steps in order) and lists the
@@ -685,7 +686,7 @@ def unused(workspace: str, max_share: float, max_gap: int, output_format: str) -
     from gapfinder.workspace import Workspace
 
     with Workspace(workspace, read_only=True) as ws:
-        result = unused_tests(ws, max_share=max_share, max_gap=max_gap)
+        result = unused_tests(ws, max_share=max_share, max_gap=max_gap, min_users=min_users)
     columns = ["test_id", "path", "sessions", "share", "suite_step_share", "reason"]
     _emit_result(
         result,

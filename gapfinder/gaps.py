@@ -361,20 +361,23 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
     return result
 
 
-def unused_tests(ws: Workspace, *, max_share: float = 0.01, max_gap: int = 0) -> dict[str, Any]:
+def unused_tests(
+    ws: Workspace, *, max_share: float = 0.01, max_gap: int = 0, min_users: int = DEFAULT_MIN_USERS
+) -> dict[str, Any]:
     """Tests whose journey field sessions take rarely or never: candidates to run less often.
 
     A test's journey is its mapped steps in order; a session takes it when it contains them with
     at most ``max_gap`` other events between consecutive steps (0: as one contiguous run). Tests
-    taken by fewer than ``max_share`` of sessions are listed, rarest first, with the share of the
-    suite's steps they account for (what running them less often would save).
+    taken by at most ``max_share`` of sessions are listed, rarest first, with the share of the
+    suite's steps they account for (what running them less often would save). A journey taken by
+    fewer than ``min_users`` distinct users has its counts held back (shown as None).
     """
     if not 0 <= max_share <= 1:
         raise ConfigError(f"--max-share {max_share}: give a fraction of sessions between 0 and 1")
     tests: TestPaths = load_test_paths(ws)
     con = ws.con
     names = feature_names(con)
-    db = load_sequences(con, with_users=False)
+    db = load_sequences(con, with_users=True)
     total = db.session_count
     journeys = [tuple(e for e in framed[1:-1] if e >= 0) for framed in tests.framed]
     runnable = [i for i, j in enumerate(journeys) if j]
@@ -383,38 +386,49 @@ def unused_tests(ws: Workspace, *, max_share: float = 0.01, max_gap: int = 0) ->
     )
     sessions = np.zeros(len(runnable), dtype=np.int64)
     np.add.at(sessions, which, db.weights[sequence])
-    taken = {runnable[i]: int(sessions[i]) for i in range(len(runnable))}
+    users = np.zeros(len(runnable), dtype=np.int64)
+    if db.user_ptr is not None and db.user_ids is not None:
+        for n in range(len(runnable)):  # one pass per test, over the sequences that take its journey
+            seqs = sequence[which == n]
+            if len(seqs):
+                spans = [db.user_ids[db.user_ptr[q] : db.user_ptr[q + 1]] for q in seqs.tolist()]
+                users[n] = len(np.unique(np.concatenate(spans)))
+    taken = {runnable[n]: (int(sessions[n]), int(users[n])) for n in range(len(runnable))}
     step_total = sum(len(f) - 2 for f in tests.framed)
     rows = []
     for i, test_id in enumerate(tests.test_ids):
-        count = taken.get(i, 0)
+        count, people = taken.get(i, (0, 0))
         share = count / total if total else 0.0
         if share > max_share:
             continue
+        held_back = 0 < people < min_users
         steps = len(tests.framed[i]) - 2
         unknown = sum(1 for e in tests.framed[i] if e < 0)
-        reason = (
-            "no field session takes this journey"
-            if count == 0
-            else f"{count:,} sessions ({100 * share:.2f} %) take this journey"
-        )
+        if count == 0:
+            reason = "no field session takes this journey"
+        elif held_back:
+            reason = f"fewer than {min_users} users take this journey (counts held back)"
+        else:
+            reason = f"{count:,} sessions ({100 * share:.2f} %) of {people:,} users take this journey"
         if unknown:
             reason += f"; {unknown} of its steps match no field event"
         rows.append(
             {
                 "test_id": test_id,
                 "path": [names[e] if e >= 0 else "?" for e in tests.framed[i][1:-1]],
-                "sessions": count,
-                "share": share,
+                "sessions": None if held_back else count,
+                "users": None if held_back else people,
+                "share": None if held_back else share,
                 "suite_step_share": steps / step_total if step_total else 0.0,
                 "reason": reason,
             }
         )
-    rows.sort(key=lambda r: (r["sessions"], r["test_id"]))
+    rows.sort(key=lambda r: (r["sessions"] if r["sessions"] is not None else 0.5, r["test_id"]))
     return {
         "workspace": str(ws.path),
         "max_share": max_share,
         "max_gap": max_gap,
+        "min_users": min_users,
         "total_sessions": total,
         "tests": len(tests.test_ids),
         "unused": rows,

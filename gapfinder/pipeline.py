@@ -67,7 +67,7 @@ def run_pipeline(
         mined = mine_workspace(ws, mining or MiningOptions())
         say("ranking gaps")
         gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users))
-        unused = unused_tests(ws)
+        unused = unused_tests(ws, min_users=min_users)
         say("planning scenarios")
         planned = make_plan(ws, plan or PlanOptions(min_users=min_users))
     files: list[str] = []
@@ -158,7 +158,12 @@ def render_summary_markdown(summary: dict[str, Any]) -> str:
     if unused["unused"]:
         lines += ["| test | journey | sessions | share |", "|---|---|---|---|"]
         for r in unused["unused"]:
-            lines.append(f"| `{r['test_id']}` | {_path(r['path'])} | {r['sessions']:,} | {100 * r['share']:.2f} % |")
+            counts = (
+                (f"{r['sessions']:,}", f"{100 * r['share']:.2f} %")
+                if r["sessions"] is not None
+                else (f"fewer than {unused['min_users']} users", "")
+            )
+            lines.append(f"| `{r['test_id']}` | {_path(r['path'])} | {counts[0]} | {counts[1]} |")
         lines += ["", "Candidates to run less often, not to delete."]
     else:
         lines.append(f"None: every test's journey is in more than {_pct(unused['max_share'])} of sessions.")

@@ -13,7 +13,8 @@ Wolsey & Fisher 1978). With a cost per step the greedy choice of the largest gai
 has no guarantee; following Khuller, Moss & Naor (1999) every start of up to three scenarios
 within the budget is completed greedily and the best result kept, which achieves 1 − 1/e; when the
 candidates are too many to enumerate, the better of the cost-effective greedy and the best single
-scenario is kept, which achieves ½(1 − 1/e).
+scenario is kept, which achieves ½(1 − 1/e) (this bound is recalled from memory of that paper; the
+tests check it against brute-force optima on random instances).
 
 References
 ----------

@@ -9,6 +9,7 @@ import pytest
 
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.paths import feature_names
+from gapfinder.suite import load_suite
 from gapfinder.workspace import Workspace
 from tests.helpers import SAMPLE
 
@@ -81,3 +82,15 @@ def test_rarely_used_tests_are_listed(demo_gaps: dict) -> None:
     assert set(MANIFEST["rarely_used_tests"]) <= listed
     tested = set(MANIFEST["tested_journeys"].values()) - set(MANIFEST["rarely_used_tests"])
     assert not listed & tested
+
+
+def test_unused_holds_back_journeys_of_few_users(profiled: Path, tmp_path: Path) -> None:
+    catalog = tmp_path / "tests.yaml"
+    catalog.write_text("tests:\n  - id: t_tune\n    steps: [open, settings]\n  - id: t_never\n    steps: [pay, open]\n")
+    with Workspace(profiled) as ws:
+        load_suite(ws, [catalog])
+        floored = {r["test_id"]: r for r in unused_tests(ws, max_share=1.0, min_users=5)["unused"]}
+        open_rows = {r["test_id"]: r for r in unused_tests(ws, max_share=1.0, min_users=1)["unused"]}
+    assert floored["t_tune"]["sessions"] is None and "held back" in floored["t_tune"]["reason"]
+    assert floored["t_never"]["sessions"] == 0
+    assert open_rows["t_tune"]["sessions"] == 1 and open_rows["t_tune"]["users"] == 1

@@ -358,11 +358,12 @@ def render_unused(result: dict[str, Any], console: Console) -> None:
         ("suite steps", "right"),
     )
     for r in result["unused"]:
+        held = f"< {result['min_users']} users"
         table.add_row(
             r["test_id"],
             format_path(r["path"]),
-            f"{r['sessions']:,}",
-            f"{100 * r['share']:.2f} %",
+            held if r["sessions"] is None else f"{r['sessions']:,}",
+            "" if r["share"] is None else f"{100 * r['share']:.2f} %",
             _pct(r["suite_step_share"]),
         )
     table.caption = f"{len(result['unused'])} of {result['tests']} tests · candidates to run less often, not to delete"
