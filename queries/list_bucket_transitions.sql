@@ -1,20 +1,26 @@
 -- Returns, per calendar bucket ($unit: 'week' or 'month') of session start within [$start, $end)
--- (NULL: open), each transition's occurrences and sessions, and the bucket's session count.
--- Reads sessions. Parameters: $unit, $start, $end, $include_automated (BOOLEAN).
+-- (NULL: open), each transition's occurrences and the bucket's session count. Counting runs once
+-- per distinct (bucket, path), weighted by its sessions. Reads sessions, full_paths.
+-- Parameters: $unit, $start, $end, $include_automated (BOOLEAN).
 WITH counted AS (
-    SELECT session_key, date_trunc($unit, started_at) AS bucket, list_concat([0], path, [1]) AS p
+    SELECT date_trunc($unit, started_at) AS bucket, path_id, count(*)::BIGINT AS sessions
     FROM sessions
     WHERE ($include_automated OR NOT is_automated)
       AND ($start IS NULL OR started_at >= $start)
       AND ($end IS NULL OR started_at < $end)
+    GROUP BY bucket, path_id
 ),
-totals AS (SELECT bucket, count(*)::BIGINT AS bucket_sessions FROM counted GROUP BY bucket),
+totals AS (SELECT bucket, sum(sessions)::BIGINT AS bucket_sessions FROM counted GROUP BY bucket),
+framed AS (
+    SELECT c.bucket, c.sessions, list_concat([0], f.path, [1]) AS p
+    FROM counted AS c
+    JOIN full_paths AS f USING (path_id)
+),
 steps AS (
-    SELECT session_key, bucket, p[i] AS a, p[i + 1] AS b
-    FROM (SELECT session_key, bucket, p, unnest(range(1, len(p))) AS i FROM counted)
+    SELECT bucket, sessions, p[i] AS a, p[i + 1] AS b
+    FROM (SELECT bucket, sessions, p, unnest(range(1, len(p))) AS i FROM framed)
 )
-SELECT s.bucket, s.a, s.b, count(*)::BIGINT AS occurrences, count(DISTINCT s.session_key)::BIGINT AS sessions,
-       any_value(t.bucket_sessions) AS bucket_sessions
+SELECT s.bucket, s.a, s.b, sum(s.sessions)::BIGINT AS occurrences, any_value(t.bucket_sessions) AS bucket_sessions
 FROM steps AS s
 JOIN totals AS t USING (bucket)
 GROUP BY s.bucket, s.a, s.b

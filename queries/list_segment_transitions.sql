@@ -1,10 +1,9 @@
 -- Returns, per value of the segment $by ('app_version' or 'platform') of the sessions started in
 -- [$start, $end) (NULL: open), each transition's occurrences, and the value's session count and
--- distinct users. Reads sessions. Parameters: $by, $start, $end, $include_automated (BOOLEAN).
+-- distinct users. Counting runs once per distinct (value, path), weighted by its sessions.
+-- Reads sessions, full_paths. Parameters: $by, $start, $end, $include_automated (BOOLEAN).
 WITH counted AS (
-    SELECT session_key, user_key,
-           CASE WHEN $by = 'platform' THEN platform ELSE app_version END AS value,
-           list_concat([0], path, [1]) AS p
+    SELECT CASE WHEN $by = 'platform' THEN platform ELSE app_version END AS value, path_id, user_key
     FROM sessions
     WHERE ($include_automated OR NOT is_automated)
       AND ($start IS NULL OR started_at >= $start)
@@ -12,13 +11,20 @@ WITH counted AS (
 ),
 totals AS (
     SELECT value, count(*)::BIGINT AS value_sessions, count(DISTINCT user_key)::BIGINT AS value_users
-    FROM counted GROUP BY value
+    FROM counted
+    GROUP BY value
+),
+weighted AS (SELECT value, path_id, count(*)::BIGINT AS sessions FROM counted GROUP BY value, path_id),
+framed AS (
+    SELECT w.value, w.sessions, list_concat([0], f.path, [1]) AS p
+    FROM weighted AS w
+    JOIN full_paths AS f USING (path_id)
 ),
 steps AS (
-    SELECT value, p[i] AS a, p[i + 1] AS b
-    FROM (SELECT value, p, unnest(range(1, len(p))) AS i FROM counted)
+    SELECT value, sessions, p[i] AS a, p[i + 1] AS b
+    FROM (SELECT value, sessions, p, unnest(range(1, len(p))) AS i FROM framed)
 )
-SELECT coalesce(s.value, '(none)') AS value, s.a, s.b, count(*)::BIGINT AS occurrences,
+SELECT coalesce(s.value, '(none)') AS value, s.a, s.b, sum(s.sessions)::BIGINT AS occurrences,
        any_value(t.value_sessions) AS value_sessions, any_value(t.value_users) AS value_users
 FROM steps AS s
 JOIN totals AS t ON t.value IS NOT DISTINCT FROM s.value
