@@ -44,3 +44,17 @@ def test_every_query_is_used() -> None:
     source = "".join(p.read_text() for p in (ROOT / "gapfinder").rglob("*.py"))
     unused = [q.stem for q in QUERIES if f'"{q.stem}"' not in source]
     assert not unused
+
+
+def test_every_public_name_resolves_and_import_stays_light() -> None:
+    import gapfinder
+
+    for name in gapfinder.__all__:
+        assert getattr(gapfinder, name) is not None, name
+    quick = subprocess.run(
+        [sys.executable, "-c", "import sys, gapfinder; print('numba' in sys.modules)"],
+        capture_output=True,
+        text=True,
+        check=True,
+    )
+    assert quick.stdout.strip() == "False"  # the compiled miner loads only when something mines
