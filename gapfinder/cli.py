@@ -176,8 +176,12 @@ class GapfinderGroup(click.Group):
 def cli(ctx: click.Context, debug: bool) -> None:
     """Measure how much of real usage your automated tests cover, and what they miss.
 
-    Start with `gapfinder profile TELEMETRY -w ws.duckdb`, or try the invented demo:
-    `gapfinder demo --out demo/` then `gapfinder profile demo/field -w demo.duckdb`.
+    \b
+    All at once:   gapfinder run TELEMETRY --tests TRACES --out report/
+    Step by step:  profile → suite → paths --kind patterns → coverage / gaps
+                   → plan → export; audit, check and report for the quarter and CI.
+    Try the invented demo: gapfinder run sample_telemetry/field
+    --tests sample_telemetry/tests/suite_traces.csv --out report/
     """
     ctx.ensure_object(dict)
     ctx.obj["debug"] = debug
