@@ -20,7 +20,7 @@ from gapfinder.patterns import MiningOptions, mine_workspace
 from gapfinder.plan import PlanOptions, make_plan
 from gapfinder.report.markdown import markdown_path as _path
 from gapfinder.report.markdown import percent as _pct
-from gapfinder.suite import SuiteOptions, load_suite
+from gapfinder.suite import SuiteOptions, load_suite, read_suite
 from gapfinder.usage_profile import ProfileOptions, profile_telemetry
 from gapfinder.workspace import Workspace
 
@@ -56,6 +56,7 @@ def run_pipeline(
     folder = Path(out)
     if folder.exists() and not folder.is_dir():
         raise ConfigError(f"--out {folder}: exists and is not a folder")
+    read_suite(tests, suite or SuiteOptions())  # bad test sources fail now, before any work is written
     folder.mkdir(parents=True, exist_ok=True)
     workspace = folder / "workspace.duckdb"
     say("profiling telemetry")

@@ -51,3 +51,10 @@ def test_run_writes_everything(tmp_path: Path) -> None:
     assert "# Test coverage against real usage" in summary and "## Plan: 5 new scenario(s)" in summary
     assert (out / "pytest" / "gapfinder_steps.py").exists() and list((out / "gherkin").glob("*.feature"))
     assert json.loads((out / "gapfinder_plan.json").read_text())["budget"] == 5
+
+
+def test_run_with_a_missing_test_source_fails_before_writing(tmp_path: Path) -> None:
+    out = tmp_path / "report"
+    result = invoke("run", str(SAMPLE / "field"), "--tests", str(tmp_path / "nope.yaml"), "--out", str(out))
+    assert result.exit_code == 2 and "nope.yaml" in result.stderr
+    assert not out.exists()
