@@ -69,11 +69,11 @@ def jensen_shannon_distance(p: Sequence[float], q: Sequence[float], *, base: flo
     divergence = 0.0
     for a, b in zip(p, q, strict=True):
         pa, qb = a / total_p, b / total_q
-        m = (pa + qb) / 2
+        both = pa + qb  # written as 2x/(x + y), not x/m: the mean m of tiny weights can underflow to 0
         if pa > 0:
-            divergence += 0.5 * pa * math.log(pa / m)
+            divergence += 0.5 * pa * math.log(2 * pa / both)
         if qb > 0:
-            divergence += 0.5 * qb * math.log(qb / m)
+            divergence += 0.5 * qb * math.log(2 * qb / both)
     return math.sqrt(max(divergence, 0.0) / math.log(base))
 
 
