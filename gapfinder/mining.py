@@ -599,8 +599,11 @@ def _match_kernel(  # pragma: no cover - compiled
     pattern_starts: np.ndarray,
     pattern_gaps: np.ndarray,
     framed: np.ndarray,
+    candidate_ptr: np.ndarray,
+    candidates: np.ndarray,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """(pattern index, sequence index) for every sequence that contains each pattern."""
+    """(pattern index, sequence index) for every sequence that contains each pattern; pattern p is
+    tried only on ``candidates[candidate_ptr[p]:candidate_ptr[p + 1]]`` (ascending)."""
     seq_total = starts.shape[0] - 1
     out_pattern = np.empty(1024, dtype=np.int64)
     out_sequence = np.empty(1024, dtype=np.int64)
@@ -614,7 +617,8 @@ def _match_kernel(  # pragma: no cover - compiled
         a, b = pattern_starts[p], pattern_starts[p + 1]
         gap = pattern_gaps[p]
         is_framed = framed[p]
-        for s in range(seq_total):
+        for t in range(candidate_ptr[p], candidate_ptr[p + 1]):
+            s = candidates[t]
             lo, hi = starts[s], starts[s + 1]
             n = hi - lo + (2 if is_framed else 0)
             if n < b - a:
@@ -676,7 +680,9 @@ def containing_sequences(
         return np.zeros(0, np.int64), np.zeros(0, np.int64)
     if (lengths == 0).any():
         raise ValueError("patterns must have at least one event")
-    small = _use_python(engine, len(db.items)) and (engine == "python" or len(db.items) * len(patterns) <= 500_000)
+    candidate_ptr, candidates = _candidate_sequences(db, patterns)
+    work = len(candidates) * max(1, len(db.items) // max(db.sequence_count, 1))
+    small = _use_python(engine, len(db.items)) and (engine == "python" or work <= 500_000)
     matcher = _match_python if small else _match_kernel
     result: tuple[np.ndarray, np.ndarray] = matcher(
         np.ascontiguousarray(db.items, dtype=_I32),
@@ -685,8 +691,43 @@ def containing_sequences(
         pattern_starts,
         gaps,
         np.array(framed, dtype=np.bool_),
+        candidate_ptr,
+        candidates,
     )
     return result
+
+
+def _candidate_sequences(db: SequenceDatabase, patterns: list[tuple[int, ...]]) -> tuple[np.ndarray, np.ndarray]:
+    """Per pattern, the sequences that contain its rarest event (an inverted index): only those can
+    contain the pattern. Patterns made only of START/END (ids 0 and 1, never stored in sequences)
+    are tried on every sequence."""
+    n_seq = db.sequence_count
+    # A stable sort by event (radix sort for int32) keeps each event's positions in sequence order,
+    # so dropping consecutive repeats leaves each (event, sequence) pair once: linear, no hashing.
+    order = np.argsort(db.items, kind="stable")
+    event_of_key = db.items[order].astype(np.int64)
+    sequence_of_key = _sequence_of_position(db)[order].astype(np.int64)
+    keep = np.ones(len(order), dtype=bool)
+    keep[1:] = (event_of_key[1:] != event_of_key[:-1]) | (sequence_of_key[1:] != sequence_of_key[:-1])
+    event_of_key, sequence_of_key = event_of_key[keep], sequence_of_key[keep]
+    top_event = int(event_of_key[-1]) + 1 if len(event_of_key) else 0
+    bounds = np.searchsorted(event_of_key, np.arange(top_event + 1))
+    everything = np.arange(n_seq, dtype=np.int64)
+    lists = []
+    for pattern in patterns:
+        real = [e for e in pattern if e > 1]
+        if not real:
+            lists.append(everything)
+            continue
+        if any(e >= top_event for e in real):
+            lists.append(everything[:0])
+            continue
+        rarest = min(real, key=lambda e: bounds[e + 1] - bounds[e])
+        lists.append(sequence_of_key[bounds[rarest] : bounds[rarest + 1]])
+    ptr = np.zeros(len(patterns) + 1, dtype=np.int64)
+    np.cumsum([len(x) for x in lists], out=ptr[1:])
+    flat = np.concatenate(lists).astype(np.int64) if lists else np.zeros(0, np.int64)
+    return ptr, flat
 
 
 # Small inputs run the very same kernels as plain Python: numba's first call in a process costs about
