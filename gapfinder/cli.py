@@ -810,6 +810,10 @@ def export(workspace: str, to: str, as_format: str, force: bool, phrases: str | 
 )
 @click.option("--top", default=10, show_default=True, type=click.IntRange(min=1), help="Gaps in the summary.")
 @min_users_option("paths")
+@click.option(
+    "--key-env", metavar="VAR", help="Pseudonymize user ids with the HMAC-SHA256 key in this environment variable."
+)
+@click.option("--key-file", type=click.Path(dir_okay=False), help="Pseudonymize user ids with the key in this file.")
 @click.option("--force", is_flag=True, help="Overwrite skeleton files that exist and differ.")
 def run_all(
     telemetry: tuple[str, ...],
@@ -819,6 +823,8 @@ def run_all(
     maps: tuple[str, ...],
     top: int,
     min_users: int,
+    key_env: str | None,
+    key_file: str | None,
     force: bool,
 ) -> None:
     """The whole job at once: profile, suite, journeys, gaps, plan, skeletons and a Markdown summary.
@@ -828,14 +834,17 @@ def run_all(
     """
     from gapfinder.pipeline import run_pipeline
     from gapfinder.plan import PlanOptions
+    from gapfinder.privacy import read_key
     from gapfinder.usage_profile import ProfileOptions
+
+    key = read_key(env_var=key_env, key_file=key_file)
 
     with _progress(total=6) as step:
         result = run_pipeline(
             telemetry,
             tests,
             out,
-            profile=ProfileOptions(mapping=_parse_mapping(None, maps)),
+            profile=ProfileOptions(mapping=_parse_mapping(None, maps), pseudonymize_key=key),
             plan=PlanOptions(budget=budget, min_users=min_users),
             top=top,
             min_users=min_users,

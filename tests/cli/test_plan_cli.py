@@ -58,3 +58,19 @@ def test_run_with_a_missing_test_source_fails_before_writing(tmp_path: Path) -> 
     result = invoke("run", str(SAMPLE / "field"), "--tests", str(tmp_path / "nope.yaml"), "--out", str(out))
     assert result.exit_code == 2 and "nope.yaml" in result.stderr
     assert not out.exists()
+
+
+def test_run_pseudonymizes_when_given_a_key(tmp_path: Path, monkeypatch: object) -> None:
+    import duckdb
+
+    monkeypatch.setenv("GF_TEST_KEY", "a key long enough for the test")  # type: ignore[attr-defined]
+    out = tmp_path / "report"
+    args = ["run", str(SAMPLE / "field"), "--tests", str(SAMPLE / "tests" / "suite_traces.csv"), "--out", str(out)]
+    result = invoke(*args, "--budget", "2", "--key-env", "GF_TEST_KEY")
+    assert result.exit_code == 0, result.output
+    con = duckdb.connect(str(out / "workspace.duckdb"), read_only=True)
+    labels = [r[0] for r in con.execute("SELECT user_label FROM users LIMIT 50").fetchall()]
+    con.close()
+    assert all(len(label) == 64 and int(label, 16) >= 0 for label in labels)  # HMAC-SHA256 hex, not the raw ids
+    missing = invoke(*args, "--key-env", "GF_UNSET_KEY")
+    assert missing.exit_code == 2 and "GF_UNSET_KEY" in missing.stderr
