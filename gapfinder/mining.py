@@ -201,6 +201,17 @@ def _grow_rows(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cov
 
 
 @njit(cache=True, nogil=True)
+def _grow_output(  # pragma: no cover - compiled
+    out_items: np.ndarray, out_len: np.ndarray, out_support: np.ndarray, out_users: np.ndarray, needed: int
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The kernel's four output buffers with room for ``needed`` rows (new event cells are -1)."""
+    old_rows = out_items.shape[0]
+    out_items = _grow_rows(out_items, needed)
+    out_items[old_rows:] = -1
+    return out_items, _grow(out_len, needed), _grow(out_support, needed), _grow(out_users, needed)
+
+
+@njit(cache=True, nogil=True)
 def _scan(  # pragma: no cover - compiled
     arena: np.ndarray,
     lo: int,
@@ -396,11 +407,9 @@ def _mine_kernel(  # pragma: no cover - compiled
                 # Children one step past max_length: recorded only to decide closure.
                 for c in range(n):
                     if rows >= out_len.shape[0]:
-                        out_items = _grow_rows(out_items, rows + 1)
-                        out_items[rows:] = -1
-                        out_len = _grow(out_len, rows + 1)
-                        out_support = _grow(out_support, rows + 1)
-                        out_users = _grow(out_users, rows + 1)
+                        out_items, out_len, out_support, out_users = _grow_output(
+                            out_items, out_len, out_support, out_users, rows + 1
+                        )
                     for d in range(expand_length):
                         out_items[rows, d] = pattern[d]
                     out_items[rows, expand_length] = child_item[level, c]
@@ -486,11 +495,9 @@ def _mine_kernel(  # pragma: no cover - compiled
                 stopped = True
                 break
             if rows >= out_len.shape[0]:
-                out_items = _grow_rows(out_items, rows + 1)
-                out_items[rows:] = -1
-                out_len = _grow(out_len, rows + 1)
-                out_support = _grow(out_support, rows + 1)
-                out_users = _grow(out_users, rows + 1)
+                out_items, out_len, out_support, out_users = _grow_output(
+                    out_items, out_len, out_support, out_users, rows + 1
+                )
             for d in range(length):
                 out_items[rows, d] = pattern[d]
             out_len[rows] = length
@@ -741,7 +748,9 @@ ENGINES = ("auto", "compiled", "python")
 
 def _python_twin(kernel: Any, *helpers: Any) -> Callable[..., Any]:
     module_globals = dict(kernel.py_func.__globals__)
-    module_globals.update({h.py_func.__name__: h.py_func for h in helpers})
+    # Helpers are rebuilt over the same swapped globals, so a helper calling another helper stays plain.
+    for h in helpers:
+        module_globals[h.py_func.__name__] = types.FunctionType(h.py_func.__code__, module_globals, h.py_func.__name__)
     plain = types.FunctionType(kernel.py_func.__code__, module_globals, kernel.py_func.__name__)
 
     def twin(*args: Any) -> Any:
@@ -751,7 +760,7 @@ def _python_twin(kernel: Any, *helpers: Any) -> Callable[..., Any]:
     return twin
 
 
-_mine_python = _python_twin(_mine_kernel, _grow, _grow_rows, _scan, _heap_push)
+_mine_python = _python_twin(_mine_kernel, _grow, _grow_rows, _grow_output, _scan, _heap_push)
 _closed_flags_python = _python_twin(_closed_flags, _row_hash)
 _match_python = _python_twin(_match_kernel, _state_at, _grow)
 
