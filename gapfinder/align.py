@@ -25,6 +25,8 @@ from typing import Any
 import yaml
 
 from gapfinder.errors import ConfigError
+from gapfinder.quoting import yaml_string
+from gapfinder.safe_io import write_text
 
 __all__ = [
     "NameAligner",
@@ -190,22 +192,15 @@ def write_aliases(
         "aliases:",
     ]
     for step, event in sorted((existing or {}).items()):
-        lines.append(f"  {_yaml_scalar(step)}: {_yaml_scalar(event)}")
+        lines.append(f"  {yaml_string(step)}: {yaml_string(event)}")
     for s in suggestions:
         if existing and s.step in existing:
             continue
-        target = _yaml_scalar(s.event) if s.event else "null"
+        target = yaml_string(s.event) if s.event else "null"
         note = f"similarity {s.score:.2f}" if s.event else f"no event above the threshold (best {s.score:.2f})"
-        lines.append(f"  {_yaml_scalar(s.step)}: {target}  # {note}")
+        lines.append(f"  {yaml_string(s.step)}: {target}  # {note}")
     text = "\n".join(lines) + "\n"
-    target_path = Path(path)
-    temporary = target_path.with_name(f".{target_path.name}.tmp")
-    temporary.write_text(text, encoding="utf-8")
-    temporary.replace(target_path)
-
-
-def _yaml_scalar(value: str) -> str:
-    return yaml.safe_dump(value, default_style='"').strip().removesuffix("...").strip()
+    write_text(path, text, option="--write")
 
 
 def suggest_for_workspace(ws: Any, *, min_score: float = 0.25) -> dict[str, Any]:

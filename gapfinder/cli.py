@@ -22,9 +22,25 @@ from typing import Any, TypeVar
 import click
 
 from gapfinder import __version__
-from gapfinder.errors import GapfinderError
+from gapfinder.errors import GapfinderError, describe_database_error
+from gapfinder.quoting import printable
 
 F = TypeVar("F", bound=Callable[..., Any])
+
+
+class FiniteFloat(click.FloatRange):
+    """A float option that refuses nan and ±inf as well as values out of its range."""
+
+    name = "number"
+
+    def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> Any:
+        import math
+
+        number = super().convert(value, param, ctx)
+        if not math.isfinite(number):
+            self.fail(f"{value!r} is not a finite number", param, ctx)
+        return number
+
 
 FORMATS = ("table", "json", "csv")
 
@@ -138,20 +154,63 @@ def _emit_result(
             click.echo(csv_note, err=True)
     else:
         from gapfinder import report
+        from gapfinder.quoting import terminal_safe
 
-        getattr(report, table)(result, _stdout_console())
+        getattr(report, table)(terminal_safe(result), _stdout_console())
+
+
+def _internal_error_line(exc: BaseException) -> str:
+    """Where a bug happened, without the exception's text (it may quote data)."""
+    frames = traceback.extract_tb(exc.__traceback__)
+    ours = [f for f in frames if "gapfinder" in f.filename.replace("\\", "/").split("/site-packages/")[-1]]
+    where = f" at {Path(ours[-1].filename).name}:{ours[-1].lineno}" if ours else ""
+    return f"gapfinder: internal error ({type(exc).__name__}{where}); rerun with --debug and report it"
 
 
 class GapfinderGroup(click.Group):
-    """Turns library errors into one clean line and exit code 2."""
+    """Every failure becomes one line on stderr: exit 2 for bad input or usage, 3 for a bug.
+
+    Library errors (GapfinderError), database errors (their text reduced so that no row content
+    is echoed), file-system errors (full disk, read-only folder) and click's own usage errors
+    all end the same way; ``--debug`` shows the traceback.
+    """
+
+    def main(self, *args: Any, standalone_mode: bool = True, **kwargs: Any) -> Any:
+        if not standalone_mode:
+            return super().main(*args, standalone_mode=False, **kwargs)
+        try:
+            code = super().main(*args, standalone_mode=False, **kwargs)
+        except click.ClickException as exc:
+            where = f" (see {exc.ctx.command_path} --help)" if getattr(exc, "ctx", None) else ""
+            message = " ".join(exc.format_message().split())
+            click.echo(f"gapfinder: {printable(message)}{where}", err=True)
+            sys.exit(2 if isinstance(exc, click.UsageError) else exc.exit_code)
+        except click.exceptions.Abort:
+            click.echo("gapfinder: aborted", err=True)
+            sys.exit(1)
+        sys.exit(code if isinstance(code, int) else 0)
 
     def invoke(self, ctx: click.Context) -> Any:
+        import duckdb
+
+        debug = bool(ctx.obj and ctx.obj.get("debug"))
         try:
             return super().invoke(ctx)
         except GapfinderError as exc:
-            if ctx.obj and ctx.obj.get("debug"):
+            if debug:
                 traceback.print_exc()
-            click.echo(f"gapfinder: {exc}", err=True)
+            click.echo(f"gapfinder: {printable(' '.join(str(exc).split()))}", err=True)
+            ctx.exit(2)
+        except duckdb.Error as exc:
+            if debug:
+                traceback.print_exc()
+            click.echo(f"gapfinder: {describe_database_error(exc)}", err=True)
+            ctx.exit(2)
+        except OSError as exc:
+            if debug:
+                traceback.print_exc()
+            name = f"{exc.filename}: " if exc.filename else ""
+            click.echo(f"gapfinder: {name}{exc.strerror or type(exc).__name__}; nothing was changed", err=True)
             ctx.exit(2)
         except KeyboardInterrupt:
             click.echo("gapfinder: interrupted; the workspace keeps its previous results", err=True)
@@ -159,13 +218,10 @@ class GapfinderGroup(click.Group):
         except (click.ClickException, click.exceptions.Exit, click.exceptions.Abort):
             raise
         except Exception as exc:  # a bug: say so in one line unless --debug asks for more
-            if ctx.obj and ctx.obj.get("debug"):
+            if debug:
                 traceback.print_exc()
             else:
-                click.echo(
-                    f"gapfinder: internal error ({type(exc).__name__}: {exc}); rerun with --debug and report it",
-                    err=True,
-                )
+                click.echo(_internal_error_line(exc), err=True)
             ctx.exit(3)
 
 
@@ -249,7 +305,7 @@ def _parse_mapping(config: str | None, items: tuple[str, ...]) -> dict[str, str]
     "--idle",
     default=30.0,
     show_default=True,
-    type=click.FloatRange(min=0, min_open=True),
+    type=FiniteFloat(min=0, min_open=True),
     help="Minutes of inactivity that end a session (ignored with a session column).",
 )
 @click.option(
@@ -379,7 +435,7 @@ def _parse_max_gap(_ctx: click.Context, _param: click.Parameter, value: str) -> 
 )
 @click.option(
     "--min-support",
-    type=float,
+    type=FiniteFloat(min=0, min_open=True),
     help="Least sessions a row needs: a fraction of all sessions (below 1) or a count "
     "[default: 0.01 for patterns, none otherwise].",
 )
@@ -537,7 +593,7 @@ def suite(
     "--min-score",
     default=0.25,
     show_default=True,
-    type=click.FloatRange(0, 1),
+    type=FiniteFloat(0, 1),
     help="Suggest nothing below this similarity.",
 )
 @click.option("--aliases", type=click.Path(dir_okay=False), help="An alias file whose entries are kept when writing.")
@@ -668,7 +724,7 @@ def gaps(workspace: str, top: int, min_users: int, kinds: tuple[str, ...], max_g
     "--max-share",
     default=0.01,
     show_default=True,
-    type=click.FloatRange(0, 1),
+    type=FiniteFloat(0, 1),
     help="List tests whose journey is in at most this share of sessions.",
 )
 @click.option(
@@ -1001,7 +1057,7 @@ def check(
             relation = "≥" if c["check"].startswith("coverage") else "≤"
             click.echo(f"{mark}  {c['check']}: {value} (needs {relation} {limit})")
             for path in c.get("new_gaps", []):
-                click.echo(f"      new: {' › '.join(path)}")
+                click.echo(f"      new: {printable(' › '.join(path))}")
         click.echo("all checks hold" if result["passed"] else "coverage gate failed")
     if not result["passed"]:
         raise click.exceptions.Exit(1)
@@ -1022,24 +1078,20 @@ def report(workspace: str, html_path: str | None, markdown_path: str | None, top
     """
     from gapfinder.report import render_html, render_markdown
     from gapfinder.report.data import report_data
+    from gapfinder.safe_io import check_target, write_text
     from gapfinder.workspace import Workspace
 
     if not html_path and not markdown_path:
         raise click.UsageError("give -o FILE.html and/or --markdown FILE.md")
     with Workspace(workspace, read_only=True) as ws:
         data = report_data(ws, top=top, min_users=min_users)
-    for path, text in (
-        (html_path, render_html(data) if html_path else ""),
-        (markdown_path, render_markdown(data) if markdown_path else ""),
-    ):
-        if path:
-            target = Path(path)
-            if not target.parent.is_dir():
-                raise click.UsageError(f"{target.parent} does not exist: create the folder first")
-            temporary = target.with_name(f".{target.name}.tmp")
-            temporary.write_text(text, encoding="utf-8")
-            temporary.replace(target)
-            click.echo(str(target))
+    pages = [(p, render(data)) for p, render in ((html_path, render_html), (markdown_path, render_markdown)) if p]
+    for path, _text in pages:  # both checked before either is written
+        if not Path(path).parent.is_dir():
+            raise click.UsageError(f"{Path(path).parent} does not exist: create the folder first")
+        check_target(Path(path).parent, Path(path).name, option="-o/--markdown")
+    for path, text in pages:
+        click.echo(str(write_text(path, text, option="-o/--markdown")))
 
 
 def _render_summary(summary: dict[str, Any], output_format: str) -> None:
@@ -1050,7 +1102,9 @@ def _render_summary(summary: dict[str, Any], output_format: str) -> None:
     elif output_format == "csv":
         _emit_csv(["key", "value"], summary_rows(summary))
     else:
-        render_profile(summary, _stdout_console())
+        from gapfinder.quoting import terminal_safe
+
+        render_profile(terminal_safe(summary), _stdout_console())
 
 
 def main() -> None:

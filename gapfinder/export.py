@@ -19,7 +19,6 @@ from __future__ import annotations
 import csv
 import io
 import json
-import keyword
 import os
 import re
 from dataclasses import dataclass
@@ -28,35 +27,13 @@ from typing import Any
 
 from gapfinder.align import read_yaml_table
 from gapfinder.errors import ConfigError, InputError
+from gapfinder.quoting import gherkin_text, python_identifier, python_string, python_text, slug
+from gapfinder.safe_io import check_target, write_files
 
 __all__ = ["EXPORT_FORMATS", "ExportResult", "export_plan", "slug"]
 
 EXPORT_FORMATS = ("pytest", "gherkin", "json", "csv")
 STEPS_MODULE = "gapfinder_steps"
-
-
-def slug(text: str, *, limit: int = 60) -> str:
-    """A file- and identifier-safe name: lower case letters, digits and single underscores.
-
-    Examples
-    --------
-    >>> slug("Pay deposit (voucher) › ../etc")
-    'pay_deposit_voucher_etc'
-    """
-    out = re.sub(r"[^a-z0-9]+", "_", text.lower()).strip("_")[:limit].strip("_")
-    return out or "step"
-
-
-def _identifier(name: str, taken: dict[str, str]) -> str:
-    """A unique Python identifier for an event name (stable for the same set of names)."""
-    base = slug(name)
-    if base[0].isdigit() or keyword.iskeyword(base):
-        base = f"step_{base}"
-    candidate, n = base, 2
-    while candidate in taken.values() and taken.get(name) != candidate:
-        candidate, n = f"{base}_{n}", n + 1
-    taken[name] = candidate
-    return candidate
 
 
 @dataclass
@@ -89,7 +66,7 @@ def _pytest_files(plan: dict[str, Any]) -> dict[str, str]:
     names: dict[str, str] = {}
     events = sorted({e for row in plan["scenarios"] for e in row["path"]})
     for event in events:
-        _identifier(event, names)
+        python_identifier(event, names)
     registry = [
         '"""Step registry written by gapfinder export: one function per product event.',
         "",
@@ -102,8 +79,8 @@ def _pytest_files(plan: dict[str, Any]) -> dict[str, str]:
         registry += [
             "",
             f"def {names[event]}() -> None:",
-            f'    """Perform the event {event!r} as a user would."""',
-            f"    raise NotImplementedError({event!r})",
+            f'    """Perform the event {python_text(event)} as a user would."""',
+            f"    raise NotImplementedError({python_string(event)})",
             "",
         ]
     files = {f"{STEPS_MODULE}.py": "\n".join(registry).rstrip() + "\n"}
@@ -112,7 +89,7 @@ def _pytest_files(plan: dict[str, Any]) -> dict[str, str]:
         groups.setdefault(_group_of(row), []).append(row)
     for group, rows in sorted(groups.items()):
         lines = [
-            f'"""Candidate scenarios from gapfinder: journeys ending in {group!r} that no test exercised."""',
+            f'"""Candidate scenarios from gapfinder: journeys ending in {python_text(group)}, not yet tested."""',
             "",
             "import pytest",
             "",
@@ -120,16 +97,14 @@ def _pytest_files(plan: dict[str, Any]) -> dict[str, str]:
             "",
             'PENDING = "gapfinder candidate: implement its steps in gapfinder_steps.py, then remove this mark"',
         ]
-        used: set[str] = set()
+        test_names: dict[str, str] = {}
         for row in rows:
-            name = f"test_{slug(row['name'], limit=50)}"
-            while name in used:
-                name += "_again"
-            used.add(name)
+            key = row["name"] if row["name"] not in test_names else f"{row['name']} (scenario {row['scenario']})"
+            name = python_identifier(key, test_names, prefix="test_")
             lines += ["", "", "@pytest.mark.skip(reason=PENDING)", f"def {name}() -> None:"]
-            lines.append(f'    """Scenario {row["scenario"]}: {" > ".join(row["path"])}.')
+            lines.append(f'    """Scenario {int(row["scenario"])}: {python_text(" > ".join(row["path"]))}.')
             lines.append("")
-            lines += [f"    {line}".rstrip() for line in _evidence_lines(row)]
+            lines += [f"    {python_text(line)}".rstrip() for line in _evidence_lines(row)]
             lines.append('    """')
             lines += [f"    steps.{names[event]}()" for event in row["path"]]
         files[f"test_gapfinder_{group}.py"] = "\n".join(lines) + "\n"
@@ -137,7 +112,7 @@ def _pytest_files(plan: dict[str, Any]) -> dict[str, str]:
 
 
 def _phrase(event: str, phrases: dict[str, str]) -> str:
-    return phrases.get(event) or f"I {event.replace('_', ' ')}"
+    return gherkin_text(phrases.get(event) or f"I {event.replace('_', ' ')}")
 
 
 def _gherkin_files(plan: dict[str, Any], phrases: dict[str, str]) -> dict[str, str]:
@@ -153,9 +128,11 @@ def _gherkin_files(plan: dict[str, Any], phrases: dict[str, str]) -> dict[str, s
         ]
         for row in rows:
             lines.append("")
-            lines += [f"  # {line}" for line in _evidence_lines(row)]
-            lines.append(f"  @gapfinder @rank-{row['scenario']} @share-{100 * row['share']:.1f}pct".replace(".", "_"))
-            lines.append(f"  Scenario: {row['name']}")
+            lines += [f"  # {gherkin_text(line)}" for line in _evidence_lines(row)]
+            lines.append(
+                f"  @gapfinder @rank-{int(row['scenario'])} @share-{100 * float(row['share']):.1f}pct".replace(".", "_")
+            )
+            lines.append(f"  Scenario: {gherkin_text(row['name'])}")
             for n, event in enumerate(row["path"]):
                 keyword_ = (
                     "Given"
@@ -227,18 +204,11 @@ def export_plan(
         files = {"gapfinder_plan.json": json.dumps(plan, indent=2, sort_keys=True, default=str) + "\n"}
     else:
         files = {"gapfinder_plan.csv": _csv_file(plan)}
-    root = target.resolve()
-    planned = {}
     for name, text in files.items():
-        path = (root / name).resolve()
-        if path.parent != root or not re.fullmatch(r"[a-z0-9_]+\.(py|feature|json|csv)", name):
-            raise ConfigError(f"refusing to write {name!r}: it would leave {root}")  # defence in depth
-        if path.exists() and not force and path.read_text(encoding="utf-8") != text:
+        if not re.fullmatch(r"[a-z0-9_]+\.(py|feature|json|csv)", name):
+            raise ConfigError(f"refusing to write {name!r}: not a name export makes")  # defence in depth
+        path = check_target(target, name, option="--to") if target.exists() else target / name
+        if path.exists() and not force and path.read_text(encoding="utf-8", errors="replace") != text:
             raise ConfigError(f"{path} exists and differs: pass --force to overwrite it")
-        planned[path] = text
-    target.mkdir(parents=True, exist_ok=True)
-    for path, text in planned.items():
-        temporary = path.with_name(f".{path.name}.tmp")
-        temporary.write_text(text, encoding="utf-8")
-        temporary.replace(path)
+    write_files(target, files, option="--to")
     return ExportResult(target, sorted(files), len(plan["scenarios"]))

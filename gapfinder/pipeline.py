@@ -18,8 +18,11 @@ from gapfinder.export import export_plan
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.patterns import MiningOptions, mine_workspace
 from gapfinder.plan import PlanOptions, make_plan
+from gapfinder.quoting import markdown_code
 from gapfinder.report.markdown import markdown_path as _path
 from gapfinder.report.markdown import percent as _pct
+from gapfinder.report.markdown import privacy_note
+from gapfinder.safe_io import write_files
 from gapfinder.suite import SuiteOptions, load_suite, read_suite
 from gapfinder.usage_profile import ProfileOptions, profile_telemetry
 from gapfinder.workspace import Workspace
@@ -86,10 +89,7 @@ def run_pipeline(
         "plan": planned,
     }
     markdown = render_summary_markdown(summary)
-    target = folder / "summary.md"
-    temporary = target.with_name(".summary.md.tmp")
-    temporary.write_text(markdown, encoding="utf-8")
-    temporary.replace(target)
+    write_files(folder, {"summary.md": markdown}, option="--out")
     files.append("summary.md")
     return PipelineResult(folder, workspace, sorted(files), summary)
 
@@ -164,7 +164,7 @@ def render_summary_markdown(summary: dict[str, Any]) -> str:
                 if r["sessions"] is not None
                 else (f"fewer than {unused['min_users']} users", "")
             )
-            lines.append(f"| `{r['test_id']}` | {_path(r['path'])} | {counts[0]} | {counts[1]} |")
+            lines.append(f"| {markdown_code(r['test_id'])} | {_path(r['path'])} | {counts[0]} | {counts[1]} |")
         lines += ["", "Candidates to run less often, not to delete."]
     else:
         lines.append(f"None: every test's journey is in more than {_pct(unused['max_share'])} of sessions.")
@@ -172,8 +172,7 @@ def render_summary_markdown(summary: dict[str, Any]) -> str:
         "",
         "## Privacy",
         "",
-        f"No user ids are shown; paths taken by fewer than {gaps['min_users']} distinct users are held back. "
-        "Pseudonymized telemetry is still personal data: keep this workspace where your data-protection rules allow.",
+        privacy_note(gaps["min_users"], bool(reading.get("pseudonymized"))),
         "",
     ]
     return "\n".join(lines)

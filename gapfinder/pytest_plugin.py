@@ -11,12 +11,13 @@ from __future__ import annotations
 
 import json
 import os
-import tempfile
 from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any
 
 import pytest
+
+from gapfinder.safe_io import write_files
 
 __all__ = ["FeatureTrace"]
 
@@ -63,9 +64,5 @@ def pytest_sessionfinish(session: pytest.Session) -> None:
     if not target:
         return
     path = Path(target)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, temporary = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
-    with os.fdopen(fd, "w", encoding="utf-8") as handle:
-        for record in records:
-            handle.write(json.dumps(record, sort_keys=True) + "\n")
-    os.replace(temporary, path)
+    text = "".join(json.dumps(record, sort_keys=True) + "\n" for record in records)
+    write_files(path.parent, {path.name: text}, option="--gapfinder-trace")

@@ -15,7 +15,7 @@ from typing import Any
 
 import duckdb
 
-from gapfinder.errors import QueryError
+from gapfinder.errors import QueryError, describe_database_error
 
 __all__ = ["fetch_arrow", "fetch_dicts", "load", "query_dir", "registered", "run"]
 
@@ -47,8 +47,8 @@ def run(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> duckdb.D
     try:
         return con.execute(load(name), params or None)
     except duckdb.Error as exc:
-        first_line = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise QueryError(f"query {name}.sql failed: {first_line}") from exc
+        reason = describe_database_error(exc)
+        raise QueryError(f"query {name}.sql failed: {reason}", reason=reason) from None
 
 
 def fetch_dicts(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> list[dict[str, Any]]:

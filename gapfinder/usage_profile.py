@@ -6,9 +6,10 @@ transaction; ``summarize_profile`` reads the summary back from the workspace at 
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import asdict, dataclass, field
 from datetime import datetime
 from typing import Any
@@ -16,7 +17,7 @@ from typing import Any
 import duckdb
 import pyarrow as pa
 
-from gapfinder.errors import InputError
+from gapfinder.errors import InputError, QueryError
 from gapfinder.paths import (
     DEFAULT_MAX_K,
     build_paths,
@@ -26,6 +27,7 @@ from gapfinder.paths import (
     list_kpaths,
 )
 from gapfinder.privacy import DEFAULT_MIN_USERS
+from gapfinder.report.markdown import privacy_note
 from gapfinder.sessions import SessionOptions, build_sessions, count_source_rows
 from gapfinder.sources import open_telemetry
 from gapfinder.sql import fetch_dicts, registered, run
@@ -96,6 +98,15 @@ def load_usage_model(con: duckdb.DuckDBPyConnection) -> UsageModel:
     return UsageModel.from_transitions((a, b, int(c)) for a, b, c in rows)
 
 
+@contextlib.contextmanager
+def _reading(label: str) -> Iterator[None]:
+    """Database errors while the telemetry is read name the input and never quote its rows."""
+    try:
+        yield
+    except QueryError as exc:
+        raise InputError(f"{label}: cannot be read: {exc.reason}; fix or remove that row") from None
+
+
 def profile_telemetry(
     inputs: Sequence[str | os.PathLike[str]],
     workspace: str | os.PathLike[str],
@@ -130,7 +141,8 @@ def profile_telemetry(
         )
         say("reading telemetry")
         source = open_telemetry(ws.con, inputs, options.mapping, ts_unit=options.ts_unit, ts_format=options.ts_format)
-        counts = count_source_rows(ws.con, options.sessions)
+        with _reading(source.files.label):
+            counts = count_source_rows(ws.con, options.sessions)
         if counts.rows_read == 0:
             raise InputError(f"{source.files.label}: no events in the input (0 rows)")
         if counts.usable_rows - counts.noise_dropped <= 0:
@@ -160,13 +172,14 @@ def profile_telemetry(
         with ws.stage(record) as con:
             cleared = _clear_dependent_stages(ws)
             say("forming sessions")
-            build_sessions(
-                con,
-                options=options.sessions,
-                use_session_column=source.has_session_column,
-                include_automated=options.include_automated,
-                pseudonymize_key=options.pseudonymize_key,
-            )
+            with _reading(source.files.label):
+                build_sessions(
+                    con,
+                    options=options.sessions,
+                    use_session_column=source.has_session_column,
+                    include_automated=options.include_automated,
+                    pseudonymize_key=options.pseudonymize_key,
+                )
             say("counting paths")
             build_paths(con, max_k=options.max_k, include_automated=options.include_automated)
             say("fitting the usage model")
@@ -258,7 +271,11 @@ def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_
             "events": stats["automated_event_count"],
             "accounts": accounts,
         },
-        "privacy": {"min_users": min_users, "pseudonymized": bool(reading.get("pseudonymized"))},
+        "privacy": {
+            "min_users": min_users,
+            "pseudonymized": bool(reading.get("pseudonymized")),
+            "note": privacy_note(min_users, bool(reading.get("pseudonymized"))),
+        },
     }
 
 

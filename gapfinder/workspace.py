@@ -20,7 +20,7 @@ from typing import Any
 import duckdb
 
 from gapfinder import __version__
-from gapfinder.errors import ConfigError, GapfinderError, InputError
+from gapfinder.errors import ConfigError, GapfinderError, InputError, describe_database_error
 from gapfinder.sql import run
 
 __all__ = ["DEFAULT_WORKSPACE", "SCHEMA_VERSION", "StageRecord", "Workspace", "connect_memory"]
@@ -86,15 +86,50 @@ class Workspace:
         try:
             self.con = duckdb.connect(str(self.path), read_only=read_only)
         except duckdb.Error as exc:
+            reason = describe_database_error(exc)
+            if "another gapfinder process" in reason:
+                raise InputError(
+                    f"workspace {self.path}: another gapfinder process is using this workspace; "
+                    "wait for it to finish, or pass another --workspace"
+                ) from None
             raise InputError(
-                f"workspace {self.path} cannot be opened as a DuckDB file ({str(exc).splitlines()[0]}):"
-                " pass another --workspace"
+                f"workspace {self.path} cannot be opened as a DuckDB file ({reason}): pass another --workspace"
             ) from None
+        try:
+            self._check_schema()
+        except BaseException:
+            self.con.close()
+            raise
         _configure(self.con, threads=threads, memory_limit=memory_limit)
         spill = self.path.with_name(self.path.name + ".tmp")
         self.con.execute("SET temp_directory = $dir", {"dir": str(spill)})
         if not read_only:
             self._migrate()
+
+    def _check_schema(self) -> None:
+        """Refuse a workspace written by a newer gapfinder; an older one is migrated on write."""
+        try:
+            if not self.has_table("meta"):
+                return
+            row = self.con.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
+        except (duckdb.Error, GapfinderError):
+            raise InputError(
+                f"workspace {self.path} cannot be read (it is damaged or not a gapfinder workspace): "
+                "pass another --workspace"
+            ) from None
+        if row is None:
+            return
+        try:
+            version = int(row[0])
+        except (TypeError, ValueError):
+            raise InputError(
+                f"workspace {self.path} has an unreadable schema version: pass another --workspace"
+            ) from None
+        if version > SCHEMA_VERSION:
+            raise InputError(
+                f"workspace {self.path} was written by a newer gapfinder (schema {version}; this version reads up to "
+                f"{SCHEMA_VERSION}): upgrade gapfinder, or pass another --workspace"
+            )
 
     def _migrate(self) -> None:
         run(self.con, "create_run_sequence")

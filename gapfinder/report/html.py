@@ -8,8 +8,10 @@ closed, every attribute quoted) so that it can be checked with an XML parser.
 from __future__ import annotations
 
 import math
-from html import escape
 from typing import Any
+
+from gapfinder.quoting import html_text
+from gapfinder.report.markdown import privacy_note
 
 __all__ = ["render_html"]
 
@@ -52,7 +54,7 @@ def _pct(x: float | None, digits: int = 1) -> str:
 
 
 def _path(path: list[str]) -> str:
-    return escape(" › ".join(path))
+    return html_text(" › ".join(path))
 
 
 def _coverage_bars(metrics: dict[str, Any], patterns_mined: bool) -> str:
@@ -65,7 +67,7 @@ def _coverage_bars(metrics: dict[str, Any], patterns_mined: bool) -> str:
     ]
     for i, (metric, v) in enumerate(rows):
         y = 10 + i * row_h
-        out.append(f'<text x="0" y="{y + 18}" font-size="14" fill="{SLATE}">{escape(metric)}</text>')
+        out.append(f'<text x="0" y="{y + 18}" font-size="14" fill="{SLATE}">{html_text(metric)}</text>')
         for j, (key, colour, name) in enumerate(
             (("by_sessions", TEAL, "by sessions"), ("unweighted", TEAL_LIGHT, "distinct items"))
         ):
@@ -105,7 +107,7 @@ def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
 
     out = [
         f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" role="img" '
-        f'aria-label="Transition coverage by {escape(unit)}">'
+        f'aria-label="Transition coverage by {html_text(unit)}">'
     ]
     steps = 4
     for k in range(steps + 1):
@@ -119,7 +121,7 @@ def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
     for i, (bucket, v) in enumerate(points):
         out.append(f'<circle cx="{x(i):.1f}" cy="{y(v):.1f}" r="4" fill="{TEAL}"/>')
         out.append(
-            f'<text x="{x(i):.1f}" y="{height - 18}" font-size="11" fill="{MUTED}" text-anchor="middle">{escape(bucket)}</text>'
+            f'<text x="{x(i):.1f}" y="{height - 18}" font-size="11" fill="{MUTED}" text-anchor="middle">{html_text(bucket)}</text>'
         )
         out.append(
             f'<text x="{x(i):.1f}" y="{y(v) - 9:.1f}" font-size="11" fill="{SLATE}" text-anchor="middle">{_pct(v)}</text>'
@@ -166,7 +168,7 @@ def _diagram(diagram: dict[str, Any]) -> str:
         )
         out.append(
             f'<path d="{d}" fill="none" stroke="{colour}" stroke-width="{stroke:.1f}" stroke-opacity="0.8"{dash}>'
-            f"<title>{escape(title)}</title></path>"
+            f"<title>{html_text(title)}</title></path>"
         )
     for name, (x, y) in position.items():
         fill = TEAL if name in ("START", "END") else CARD
@@ -177,7 +179,7 @@ def _diagram(diagram: dict[str, Any]) -> str:
         )
         out.append(
             f'<text x="{x + box_w / 2:.1f}" y="{y + 19:.1f}" font-size="12" fill="{text}" text-anchor="middle">'
-            f"{escape(label)}</text>"
+            f"{html_text(label)}</text>"
         )
     out.append(
         f'<text x="{margin}" y="{height - 8}" font-size="12" fill="{MUTED}">Line width: how often the transition is '
@@ -194,8 +196,8 @@ def _cards(coverage: dict[str, Any]) -> str:
             continue
         v = modes["strict"]
         out.append(
-            f'<div class="card"><div class="metric">{escape(metric)}</div><div class="big">{_pct(v["by_sessions"])}</div>'
-            f'<div class="small">of sessions\' {escape(metric)} exercised · {v["exercised"]:,} of {v["items"]:,} distinct</div></div>'
+            f'<div class="card"><div class="metric">{html_text(metric)}</div><div class="big">{_pct(v["by_sessions"])}</div>'
+            f'<div class="small">of sessions\' {html_text(metric)} exercised · {v["exercised"]:,} of {v["items"]:,} distinct</div></div>'
         )
     out.append("</div>")
     return "".join(out)
@@ -213,14 +215,14 @@ def _gaps_table(gaps: dict[str, Any]) -> str:
             folded = f'<br/><span class="reason">also untested in the same sessions: {len(g["folded"])} related path(s)</span>'
         rows.append(
             f'<tr><td class="num">{g["rank"]}</td><td><span class="path untested">{_path(g["path"])}</span>'
-            f'<br/><span class="reason">{escape(g["reason"])}</span>{folded}</td>'
+            f'<br/><span class="reason">{html_text(g["reason"])}</span>{folded}</td>'
             f'<td class="num">{g["sessions"]:,}</td><td class="num">{g["users"]:,}</td>'
             f'<td class="num">{_pct(g["share"])}<br/><span class="reason">{100 * g["share_low"]:.1f}–{100 * g["share_high"]:.1f}</span></td>'
-            f'<td class="num">{_pct(g["error_rate"])}{lift}</td><td>{escape(g["trend"]["label"])}</td></tr>'
+            f'<td class="num">{_pct(g["error_rate"])}{lift}</td><td>{html_text(g["trend"]["label"])}</td></tr>'
         )
     rows.append("</tbody></table>")
     rows.append(
-        f'<p class="note">Score: {escape(gaps["score"])}. {gaps["suppressed"]:,} candidate paths held back: fewer than '
+        f'<p class="note">Score: {html_text(gaps["score"])}. {gaps["suppressed"]:,} candidate paths held back: fewer than '
         f"{gaps['min_users']} users.</p>"
     )
     return "".join(rows)
@@ -230,9 +232,9 @@ def _plan_section(plan: dict[str, Any] | None) -> str:
     if not plan or not plan.get("scenarios"):
         return '<p class="note">No plan stored yet: run <span class="path">gapfinder plan -w WORKSPACE --budget N</span>.</p>'
     rows = [
-        f"<p>{len(plan['scenarios'])} scenario(s) within {plan['budget']} {escape(plan['cost'])}, adding "
-        f"{_pct(plan['gain_share'])} of untested {escape(plan['objective'])} (field occurrences). "
-        f"Guarantee: {escape(plan['guarantee'])}.</p>",
+        f"<p>{len(plan['scenarios'])} scenario(s) within {plan['budget']} {html_text(plan['cost'])}, adding "
+        f"{_pct(plan['gain_share'])} of untested {html_text(plan['objective'])} (field occurrences). "
+        f"Guarantee: {html_text(plan['guarantee'])}.</p>",
         '<table><thead><tr><th>#</th><th>scenario</th><th class="num">steps</th><th class="num">adds</th>'
         "<th>closes gaps</th></tr></thead><tbody>",
     ]
@@ -240,14 +242,14 @@ def _plan_section(plan: dict[str, Any] | None) -> str:
         rows.append(
             f'<tr><td class="num">{s["scenario"]}</td><td class="path">{_path(s["path"])}</td>'
             f'<td class="num">{s["steps"]}</td><td class="num">{_pct(s["gain_share"])}</td>'
-            f"<td>{escape(', '.join('#' + str(g) for g in s['gaps']))}</td></tr>"
+            f"<td>{html_text(', '.join('#' + str(g) for g in s['gaps']))}</td></tr>"
         )
     rows.append(
         '</tbody></table><table><thead><tr><th>metric</th><th class="num">now</th><th class="num">after the plan</th></tr></thead><tbody>'
     )
     for metric, v in plan["coverage"].items():
         rows.append(
-            f'<tr><td>{escape(metric)}</td><td class="num">{_pct(v["before"])}</td><td class="num">{_pct(v["after"])}</td></tr>'
+            f'<tr><td>{html_text(metric)}</td><td class="num">{_pct(v["before"])}</td><td class="num">{_pct(v["after"])}</td></tr>'
         )
     rows.append("</tbody></table>")
     return "".join(rows)
@@ -258,7 +260,7 @@ def _drift_section(drift: dict[str, Any]) -> str:
     distance = drift["distance"]
     cov_now = drift["coverage"]["current"]["transitions"]["by_occurrences"]
     cov_before = drift["coverage"]["previous"]["transitions"]["by_occurrences"]
-    span = lambda p: escape(f"{p['from'] or 'start'} to {p['to'] or 'end'}")  # noqa: E731
+    span = lambda p: html_text(f"{p['from'] or 'start'} to {p['to'] or 'end'}")  # noqa: E731
     out = [
         f"<p>{span(current)} ({current['sessions']:,} sessions) against {span(previous)} ({previous['sessions']:,}). "
         f"Jensen–Shannon distance (0 = same usage, 1 = nothing in common): features "
@@ -279,7 +281,7 @@ def _drift_section(drift: dict[str, Any]) -> str:
         )
     out.append("</tbody></table>")
     if drift["irrelevant_tests"]:
-        listed = ", ".join(escape(t["test_id"]) for t in drift["irrelevant_tests"])
+        listed = ", ".join(html_text(t["test_id"]) for t in drift["irrelevant_tests"])
         out.append(f'<p class="note">Tests whose journey left the field: {listed}.</p>')
     return "".join(out)
 
@@ -289,6 +291,7 @@ def render_html(data: dict[str, Any]) -> str:
     profile, coverage = data["profile"], data["coverage"]
     sessions = profile["sessions"]
     reading = profile["reading"]
+    pseudonymized = bool(reading.get("pseudonymized"))
     period = f"{(reading.get('first_ts') or '')[:10]} to {(reading.get('last_ts') or '')[:10]}"
     parts = [
         "<!DOCTYPE html>",
@@ -297,15 +300,15 @@ def render_html(data: dict[str, Any]) -> str:
         "<title>gapfinder · test coverage against real usage</title>",
         f"<style>{STYLE}</style></head><body>",
         "<header><h1>Test coverage against real usage</h1>",
-        f"<p>{sessions['count']:,} sessions of {sessions['users']:,} users, {escape(period)} · "
-        f"{coverage['test_count']} tests · gapfinder {escape(data['version'])}</p></header><main>",
+        f"<p>{sessions['count']:,} sessions of {sessions['users']:,} users, {html_text(period)} · "
+        f"{coverage['test_count']} tests · gapfinder {html_text(data['version'])}</p></header><main>",
         "<section><h2>How much of real usage the tests exercise</h2>",
         _cards(coverage),
         _coverage_bars(coverage["metrics"], coverage["patterns_mined"]),
         '<p class="note">By sessions: the share of sessions\' items (features, transitions, contiguous paths, mined '
         "journeys) that falls on items some test exercises, each item weighted by the sessions that contain it. "
         "Distinct items: the plain share of distinct items.</p></section>",
-        f"<section><h2>Coverage by {escape(data['drift']['trend_unit'])}</h2>",
+        f"<section><h2>Coverage by {html_text(data['drift']['trend_unit'])}</h2>",
         _trend_chart(data["drift"]["trend"], data["drift"]["trend_unit"]),
         '<p class="note">Share of transition occurrences that the current suite exercises, per period of session start.</p></section>',
         "<section><h2>Where people go and the tests do not</h2>",
@@ -320,9 +323,7 @@ def render_html(data: dict[str, Any]) -> str:
         "<section><h2>How usage moved</h2>",
         _drift_section(data["drift"]),
         "</section>",
-        '<p class="note">No user ids are shown; paths taken by fewer than '
-        f"{data['gaps']['min_users']} distinct users are held back. Pseudonymized telemetry is still personal data: "
-        "handle this report under your data-protection rules.</p>",
+        f'<p class="note">{html_text(privacy_note(data["gaps"]["min_users"], pseudonymized))}</p>',
         "</main></body></html>",
     ]
     return "\n".join(parts) + "\n"

@@ -5,7 +5,9 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
-__all__ = ["markdown_path", "percent", "render_markdown"]
+from gapfinder.quoting import markdown_code
+
+__all__ = ["markdown_path", "percent", "privacy_note", "render_markdown"]
 
 
 def percent(x: float | None) -> str:
@@ -14,8 +16,22 @@ def percent(x: float | None) -> str:
 
 
 def markdown_path(path: Sequence[str]) -> str:
-    """A path as code spans joined by ' › '."""
-    return " › ".join(f"`{p}`" for p in path)
+    """A path as code spans joined by ' › ' (each name quoted by ``markdown_code``)."""
+    return " › ".join(markdown_code(p) for p in path)
+
+
+def privacy_note(min_users: int, pseudonymized: bool) -> str:
+    """What the page hides, and whether user ids were pseudonymized: never claimed when they were not."""
+    floor = f"No user ids are shown; paths taken by fewer than {min_users} distinct users are held back. "
+    if pseudonymized:
+        return floor + (
+            "User ids were pseudonymized with a keyed hash (HMAC-SHA256), which is still personal data: keep the "
+            "workspace where your data-protection rules allow."
+        )
+    return floor + (
+        "The workspace stores the raw user ids (no key was given to pseudonymize them): keep it where your "
+        "data-protection rules allow, or profile again with --key-env/--key-file."
+    )
 
 
 _pct, _path = percent, markdown_path
@@ -106,10 +122,5 @@ def render_markdown(data: dict[str, Any]) -> str:
         lines.append(
             f"| {_path(m['path'])} | {_pct(m['share_before'])} | {_pct(m['share_now'])} | {100 * m['change']:+.1f} pt | {p} |"
         )
-    lines += [
-        "",
-        f"No user ids are shown; paths taken by fewer than {gaps['min_users']} distinct users are held back. "
-        "Pseudonymized telemetry is still personal data.",
-        "",
-    ]
+    lines += ["", privacy_note(gaps["min_users"], bool(reading.get("pseudonymized"))), ""]
     return "\n".join(lines)

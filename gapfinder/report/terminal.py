@@ -117,6 +117,10 @@ def render_profile(summary: dict[str, Any], console: Console) -> None:
             )
     else:
         console.print("automated traffic: none flagged")
+    privacy = summary.get("privacy", {})
+    if privacy.get("note"):
+        style = "" if privacy.get("pseudonymized") else "[yellow]privacy[/]: "
+        console.print(f"{style}{privacy['note']}")
     if summary.get("cleared"):
         console.print(
             f"[yellow]cleared[/] the earlier {', '.join(summary['cleared'])} (they referred to the previous profile's "

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import duckdb
 
-from gapfinder.errors import InputError
+from gapfinder.errors import InputError, describe_database_error
 
 __all__ = ["FORMATS", "SourceFiles", "open_relation", "resolve_files"]
 
@@ -105,5 +105,6 @@ def open_relation(con: duckdb.DuckDBPyConnection, source: SourceFiles) -> duckdb
                 raise InputError(f"{f}: the file is empty; it needs one JSON object per line")
         return con.read_json(files, format="newline_delimited", union_by_name=True)
     except duckdb.Error as exc:
-        message = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise InputError(f"{source.label}: cannot be read as {source.format} ({message})") from None
+        raise InputError(
+            f"{source.label}: cannot be read as {source.format} ({describe_database_error(exc)})"
+        ) from None

@@ -10,7 +10,7 @@ import duckdb
 from duckdb import CaseExpression, ColumnExpression, ConstantExpression, FunctionExpression
 from duckdb import sqltypes as T
 
-from gapfinder.errors import ConfigError, InputError
+from gapfinder.errors import ConfigError, InputError, describe_database_error
 from gapfinder.sources.formats import SourceFiles, open_relation, resolve_files
 from gapfinder.sources.mapping import CANONICAL_COLUMNS, REQUIRED_COLUMNS
 
@@ -169,7 +169,7 @@ def open_telemetry(
         source_columns = list(relation.columns)
         source_types = [str(t) for t in relation.types]
     except duckdb.Error as exc:
-        raise InputError(f"{files.label}: cannot be read ({str(exc).splitlines()[0]})") from None
+        raise InputError(f"{files.label}: cannot be read ({describe_database_error(exc)})") from None
     types = dict(zip(source_columns, source_types, strict=True))
     chosen = dict(mapping or {})
     for canonical in CANONICAL_COLUMNS:

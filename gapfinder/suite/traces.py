@@ -10,7 +10,8 @@ from __future__ import annotations
 import duckdb
 from duckdb import ColumnExpression
 
-from gapfinder.errors import InputError
+from gapfinder.errors import InputError, describe_database_error
+from gapfinder.quoting import printable
 from gapfinder.sources.formats import SourceFiles, open_relation
 from gapfinder.suite.model import ReaderReport, TestTrace
 
@@ -49,19 +50,38 @@ def read_trace_files(source: SourceFiles, mapping: dict[str, str] | None = None)
             )
         assert test_col is not None and event_col is not None  # required above
         # Identifiers come from the file's own schema, through DuckDB's expression API.
+        order_expr = ColumnExpression(order_col)
+        order_type = str(dict(zip(relation.columns, relation.types, strict=True))[order_col]).upper()
+        if order_type == "VARCHAR":
+            # Step numbers read as text would sort "10" before "2": read them as numbers or refuse.
+            as_number = order_expr.try_cast("DOUBLE")
+            bad = relation.filter(order_expr.isnotnull() & as_number.isnull()).aggregate("count(*)").fetchall()
+            if bad and bad[0][0]:
+                raise InputError(
+                    f"{source.label}: column {order_col!r}: {bad[0][0]:,} value(s) are not numbers; "
+                    "number each test's steps 1, 2, 3 … (or give a ts column of timestamps)"
+                )
+            order_expr = as_number
         picked = relation.select(
             ColumnExpression(test_col).cast("VARCHAR").alias("test_id"),
             ColumnExpression(event_col).cast("VARCHAR").alias("event"),
-            ColumnExpression(order_col).alias("step_order"),
+            order_expr.alias("step_order"),
         )
         rows = picked.order("test_id, step_order, event").fetchall()
     except duckdb.Error as exc:
-        message = str(exc).strip().splitlines()[0]
-        raise InputError(f"{source.label}: cannot read the test traces ({message})") from None
+        raise InputError(f"{source.label}: cannot read the test traces ({describe_database_error(exc)})") from None
     finally:
         con.close()
     report = ReaderReport()
     steps: dict[str, list[str]] = {}
+    previous: tuple[object, object] | None = None
+    for raw_test, _raw_event, order in rows:
+        if order is not None and previous == (raw_test, order):
+            raise InputError(
+                f"{source.label}: test {printable(str(raw_test))!r} has two steps numbered {order} in column "
+                f"{order_col!r}; give each step of a test its own number"
+            )
+        previous = (raw_test, order)
     for raw_test, raw_event, _order in rows:
         test_id, event = (raw_test or "").strip(), (raw_event or "").strip()
         if not test_id:
