@@ -176,12 +176,14 @@ class GapfinderGroup(click.Group):
     """
 
     def main(self, *args: Any, standalone_mode: bool = True, **kwargs: Any) -> Any:
+        run_group: Callable[..., Any] = super().main
         if not standalone_mode:
-            return super().main(*args, standalone_mode=False, **kwargs)
+            return run_group(*args, standalone_mode=False, **kwargs)
         try:
-            code = super().main(*args, standalone_mode=False, **kwargs)
+            code = run_group(*args, standalone_mode=False, **kwargs)
         except click.ClickException as exc:
-            where = f" (see {exc.ctx.command_path} --help)" if getattr(exc, "ctx", None) else ""
+            context = getattr(exc, "ctx", None)
+            where = f" (see {context.command_path} --help)" if context is not None else ""
             message = " ".join(exc.format_message().split())
             click.echo(f"gapfinder: {printable(message)}{where}", err=True)
             sys.exit(2 if isinstance(exc, click.UsageError) else exc.exit_code)

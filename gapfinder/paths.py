@@ -11,16 +11,21 @@ from dataclasses import dataclass
 from typing import Any
 
 import duckdb
+import numpy as np
+import pyarrow as pa
 
+from gapfinder.disclosure import complementary_suppression, kpath_parents
 from gapfinder.errors import ConfigError
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_dicts, run
+from gapfinder.sql import fetch_arrow, fetch_dicts, registered, run
 
 __all__ = [
     "DEFAULT_MAX_K",
     "Listing",
     "build_paths",
     "feature_names",
+    "hidden_full_path_ids",
+    "hidden_kpath_codes",
     "id_bits",
     "list_features",
     "list_full_paths",
@@ -37,7 +42,6 @@ class Listing:
 
     rows: list[dict[str, Any]]
     suppressed_count: int = 0
-    suppressed_sessions: int = 0
     min_users: int = DEFAULT_MIN_USERS
 
 
@@ -70,6 +74,42 @@ def _total_sessions(con: duckdb.DuckDBPyConnection) -> int:
     return int(fetch_dicts(con, "summarize_sessions")[0]["session_count"] or 0)
 
 
+def hidden_kpath_codes(con: duckdb.DuckDBPyConnection, *, min_users: int) -> np.ndarray:
+    """Packed codes of the k-paths no listing may show: under the user floor, or hidden to protect
+    one that is (``gapfinder.disclosure``). The same cells are hidden in every listing."""
+    cells = fetch_arrow(con, "list_kpath_cells")
+    codes = cells.column("code").to_numpy().astype(np.uint64)
+    if len(codes) == 0:
+        return codes
+    users = cells.column("users").to_numpy()
+    occurrences = cells.column("occurrences").to_numpy()
+    counted = run(con, "count_features").fetchall()
+    prefix, suffix = kpath_parents(codes, id_bits(int(counted[0][0]) if counted else 2))
+    hidden = complementary_suppression(codes, occurrences, users < min_users, [prefix, suffix])
+    return codes[hidden]
+
+
+def hidden_full_path_ids(con: duckdb.DuckDBPyConnection, *, min_users: int) -> np.ndarray:
+    """Ids of the complete paths no listing may show (they partition all sessions)."""
+    cells = fetch_arrow(con, "list_full_path_cells")
+    ids = cells.column("path_id").to_numpy()
+    if len(ids) == 0:
+        return ids
+    users = cells.column("users").to_numpy()
+    sessions = cells.column("sessions").to_numpy()
+    groups = [np.full(len(ids), -1, dtype=np.int64)]  # one group: every path, whose total is all sessions
+    return ids[complementary_suppression(ids, sessions, users < min_users, groups)]
+
+
+def _code_frame(codes: np.ndarray) -> pa.Table:
+    return pa.table({"code": pa.array(codes, type=pa.uint64())})
+
+
+def _held_back(hidden_codes: np.ndarray, min_k: int, max_k: int) -> int:
+    k = hidden_codes.astype(np.uint64) >> np.uint64(60)
+    return int(((k >= min_k) & (k <= max_k)).sum())
+
+
 def list_kpaths(
     con: duckdb.DuckDBPyConnection,
     *,
@@ -80,22 +120,23 @@ def list_kpaths(
     limit: int | None = None,
     total_sessions: int | None = None,
 ) -> Listing:
-    """Contiguous paths of length min_k..max_k, most sessions first, privacy floor applied."""
-    rows = fetch_dicts(
-        con,
-        "list_kpaths",
-        names=feature_names(con),
-        min_k=min_k,
-        max_k=max_k,
-        min_users=min_users,
-        min_sessions=min_sessions,
-        total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
-        limit=limit,
-    )
-    hidden = fetch_dicts(
-        con, "count_kpaths_below_floor", min_k=min_k, max_k=max_k, min_users=min_users, min_sessions=min_sessions
-    )[0]
-    return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)
+    """Contiguous paths of length min_k..max_k, most sessions first, suppression applied.
+
+    ``suppressed_count`` counts every hidden row of that length, whatever ``min_sessions``."""
+    hidden = hidden_kpath_codes(con, min_users=min_users)
+    with registered(con, hidden_kpath_codes=_code_frame(hidden)):
+        rows = fetch_dicts(
+            con,
+            "list_kpaths",
+            names=feature_names(con),
+            min_k=min_k,
+            max_k=max_k,
+            min_users=min_users,
+            min_sessions=min_sessions,
+            total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
+            limit=limit,
+        )
+    return Listing(rows, _held_back(hidden, min_k, max_k), min_users)
 
 
 def list_full_paths(
@@ -106,18 +147,19 @@ def list_full_paths(
     limit: int | None = None,
     total_sessions: int | None = None,
 ) -> Listing:
-    """Distinct complete paths, most sessions first, privacy floor applied."""
-    rows = fetch_dicts(
-        con,
-        "list_full_paths",
-        names=feature_names(con),
-        min_users=min_users,
-        min_sessions=min_sessions,
-        total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
-        limit=limit,
-    )
-    hidden = fetch_dicts(con, "count_full_paths_below_floor", min_users=min_users, min_sessions=min_sessions)[0]
-    return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)
+    """Distinct complete paths, most sessions first, suppression applied."""
+    hidden = hidden_full_path_ids(con, min_users=min_users)
+    with registered(con, hidden_full_path_ids=pa.table({"path_id": pa.array(hidden)})):
+        rows = fetch_dicts(
+            con,
+            "list_full_paths",
+            names=feature_names(con),
+            min_users=min_users,
+            min_sessions=min_sessions,
+            total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
+            limit=limit,
+        )
+    return Listing(rows, len(hidden), min_users)
 
 
 def list_features(
@@ -128,14 +170,15 @@ def list_features(
     limit: int | None = None,
     total_sessions: int | None = None,
 ) -> Listing:
-    """Features by occurrences with sessions and users, privacy floor applied."""
-    rows = fetch_dicts(
-        con,
-        "list_feature_usage",
-        min_users=min_users,
-        min_sessions=min_sessions,
-        total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
-        limit=limit,
-    )
-    hidden = fetch_dicts(con, "count_features_below_floor", min_users=min_users, min_sessions=min_sessions)[0]
-    return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)
+    """Features by occurrences with sessions and users, suppression applied."""
+    hidden = hidden_kpath_codes(con, min_users=min_users)
+    with registered(con, hidden_kpath_codes=_code_frame(hidden)):
+        rows = fetch_dicts(
+            con,
+            "list_feature_usage",
+            min_users=min_users,
+            min_sessions=min_sessions,
+            total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
+            limit=limit,
+        )
+    return Listing(rows, _held_back(hidden, 1, 1), min_users)

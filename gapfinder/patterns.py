@@ -186,7 +186,7 @@ def list_patterns(
         limit=limit,
     )
     hidden = fetch_dicts(con, "count_patterns_below_floor", min_users=min_users)[0]
-    return Listing(rows, hidden["path_count"], hidden["session_count"], min_users)
+    return Listing(rows, hidden["path_count"], min_users)
 
 
 PATH_KINDS = ("features", "transitions", "kpaths", "patterns", "full")
@@ -257,7 +257,6 @@ def usage_paths(
             rows = [{"k": len(r["path"]), **r} for r in listing.rows]
     result["rows"] = rows
     result["suppressed"] = listing.suppressed_count
-    result["suppressed_sessions"] = listing.suppressed_sessions
     result["min_users"] = min_users
     return result
 

@@ -2,7 +2,8 @@
 -- $min_users distinct users, most sessions first, as lists of event names, with their share of
 -- $total_sessions. Reads kpaths. Parameters: $names (event names indexed by event id + 1),
 -- $min_k, $max_k, $min_users, $min_sessions (support floor), $total_sessions,
--- $limit (NULL for all).
+-- $limit (NULL for all). Rows in the registered view hidden_kpath_codes (code) are left out:
+-- gapfinder.disclosure's complementary suppression.
 SELECT
     k,
     list_transform(path, lambda x: $names[x + 1]) AS path,
@@ -12,5 +13,6 @@ SELECT
     sessions / greatest($total_sessions, 1)::DOUBLE AS share
 FROM kpaths
 WHERE k BETWEEN $min_k AND $max_k AND users >= $min_users AND sessions >= $min_sessions
+    AND code NOT IN (SELECT code FROM hidden_kpath_codes)
 ORDER BY sessions DESC, occurrences DESC, path
 LIMIT $limit;
