@@ -203,13 +203,16 @@ def write_aliases(
     write_text(path, text, option="--write")
 
 
-def suggest_for_workspace(ws: Any, *, min_score: float = 0.25) -> dict[str, Any]:
-    """Suggestions for the stored suite's unmapped step names against the workspace's events."""
+def suggest_for_workspace(ws: Any, *, min_score: float = 0.25, min_users: int = 5) -> dict[str, Any]:
+    """Suggestions for the stored suite's unmapped step names against the workspace's events.
+
+    Only events taken by at least ``min_users`` distinct users are suggested: a rarer event's name
+    may itself identify someone."""
     from gapfinder.sql import fetch_dicts
 
     ws.require("suite_steps", "features", hint="run `gapfinder suite TRACES... -w ...` first")
     unmapped = fetch_dicts(ws.con, "list_unmapped_steps")
-    events = [r["event"] for r in fetch_dicts(ws.con, "list_event_ids") if r["event_id"] > 1]
+    events = [r["event"] for r in fetch_dicts(ws.con, "list_field_events", min_users=min_users)]
     suggestions = (
         NameAligner(min_score=min_score).fit(events).suggest([r["step"] for r in unmapped]) if unmapped else []
     )

@@ -112,6 +112,7 @@ class PeriodCounts:
     transitions: dict[tuple[str, ...], tuple[int, int, int]] = field(default_factory=dict)
     paths: SequenceDatabase | None = None
     ids: dict[str, int] = field(default_factory=dict)
+    path_users: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64))
 
 
 def _counts(con: duckdb.DuckDBPyConnection, period: Period) -> PeriodCounts:
@@ -132,6 +133,7 @@ def _counts(con: duckdb.DuckDBPyConnection, period: Period) -> PeriodCounts:
         offsets = column.offsets.to_numpy(zero_copy_only=False).astype(np.int64)
         items = column.flatten().to_numpy(zero_copy_only=False).astype(np.int32)
         counts.paths = SequenceDatabase(items, offsets - offsets[0], weights)
+        counts.path_users = table.column("users").to_numpy().astype(np.int64)
     counts.sessions = int(weights.sum())
     return counts
 
@@ -227,7 +229,12 @@ def _movers(now: PeriodCounts, before: PeriodCounts, min_users: int, top: int) -
     return {"movers": rows[:top], "new": new[:top], "vanished": vanished[:top], "held_back": held_back}
 
 
-def _journey_sessions(counts: PeriodCounts, journeys: list[tuple[str, list[str]]]) -> dict[str, int]:
+def _journey_sessions(
+    counts: PeriodCounts, journeys: list[tuple[str, list[str]]], min_users: int = 1
+) -> dict[str, int | None]:
+    """Sessions of each test's journey in the period; None when fewer than ``min_users`` distinct
+    users may have taken it (the largest user count of one containing path is the bound used:
+    a journey is shown only when that alone reaches the floor)."""
     if counts.paths is None:
         return {t: 0 for t, _ in journeys}
     runnable = [(t, tuple(counts.ids[e] for e in j)) for t, j in journeys if j and all(e in counts.ids for e in j)]
@@ -236,8 +243,13 @@ def _journey_sessions(counts: PeriodCounts, journeys: list[tuple[str, list[str]]
     )
     totals = np.zeros(len(runnable), dtype=np.int64)
     np.add.at(totals, which, counts.paths.weights[seq])
-    out = {t: 0 for t, _ in journeys}
-    out.update({t: int(totals[i]) for i, (t, _) in enumerate(runnable)})
+    reach = np.zeros(len(runnable), dtype=np.int64)
+    if len(counts.path_users):
+        np.maximum.at(reach, which, counts.path_users[seq])
+    out: dict[str, int | None] = {t: 0 for t, _ in journeys}
+    out.update(
+        {t: (int(totals[i]) if totals[i] == 0 or reach[i] >= min_users else None) for i, (t, _) in enumerate(runnable)}
+    )
     return out
 
 
@@ -312,12 +324,13 @@ def audit(ws: Workspace, options: AuditOptions | None = None) -> dict[str, Any]:
         before = _counts(ws.con, before_period)
     now = _counts(ws.con, current_period)
     moves = _movers(now, before, options.min_users, options.top)
-    journeys_now = _journey_sessions(now, journeys)
-    journeys_before = _journey_sessions(before, journeys)
+    journeys_now = _journey_sessions(now, journeys, options.min_users)
+    journeys_before = _journey_sessions(before, journeys, options.min_users)
+    # A journey held back before (None: fewer than min_users users) is listed without its count.
     irrelevant = [
         {"test_id": t, "path": j, "sessions_before": journeys_before[t], "sessions_now": journeys_now[t]}
         for t, j in journeys
-        if journeys_before[t] > 0 and journeys_now[t] == 0
+        if journeys_before[t] != 0 and journeys_now[t] == 0
     ]
     result: dict[str, Any] = {
         "workspace": str(ws.path),

@@ -599,8 +599,11 @@ def suite(
     help="Suggest nothing below this similarity.",
 )
 @click.option("--aliases", type=click.Path(dir_okay=False), help="An alias file whose entries are kept when writing.")
+@min_users_option("field events")
 @output_options
-def align(workspace: str, write_to: str | None, min_score: float, aliases: str | None, output_format: str) -> None:
+def align(
+    workspace: str, write_to: str | None, min_score: float, aliases: str | None, min_users: int, output_format: str
+) -> None:
     """Suggest field event names for test steps that match none.
 
     Compares the stored suite's unmapped step names with the field's event names (TF-IDF over
@@ -612,7 +615,7 @@ def align(workspace: str, write_to: str | None, min_score: float, aliases: str |
     from gapfinder.workspace import Workspace
 
     with Workspace(workspace, read_only=True) as ws:
-        result = suggest_for_workspace(ws, min_score=min_score)
+        result = suggest_for_workspace(ws, min_score=min_score, min_users=min_users)
     if write_to:
         from gapfinder.align import Suggestion
 
@@ -640,8 +643,9 @@ def align(workspace: str, write_to: str | None, min_score: float, aliases: str |
     type=click.IntRange(min=0),
     help="Lenient matching: steps a test may have between a path's items (0: strict only).",
 )
+@min_users_option("unique contributions")
 @output_options
-def coverage(workspace: str, max_gap: int, output_format: str) -> None:
+def coverage(workspace: str, max_gap: int, min_users: int, output_format: str) -> None:
     """How much of real usage the stored suite exercises, per metric, unweighted and weighted.
 
     Metrics: features, transitions (START/END included), k-paths and mined patterns; each
@@ -652,7 +656,7 @@ def coverage(workspace: str, max_gap: int, output_format: str) -> None:
     from gapfinder.workspace import Workspace
 
     with Workspace(workspace, read_only=True) as ws:
-        result = coverage_report(ws, max_gap=max_gap)
+        result = coverage_report(ws, max_gap=max_gap, min_users=min_users)
     keys = ["items", "exercised", "unweighted", "by_occurrences", "by_sessions", "by_users"]
     _emit_result(
         result,

@@ -27,6 +27,7 @@ import numpy as np
 
 from gapfinder.errors import ConfigError
 from gapfinder.paths import feature_names, id_bits
+from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts
 from gapfinder.workspace import Workspace
 
@@ -245,7 +246,14 @@ def exercised_masks(tests: TestPaths, items: FieldItems, *, max_gap: int = 0) ->
     return kpath_mask, pattern_mask
 
 
-def compute_coverage(tests: TestPaths, items: FieldItems, *, max_gap: int = 0, per_test: bool = True) -> dict[str, Any]:
+def compute_coverage(
+    tests: TestPaths,
+    items: FieldItems,
+    *,
+    max_gap: int = 0,
+    per_test: bool = True,
+    min_users: int = DEFAULT_MIN_USERS,
+) -> dict[str, Any]:
     """Coverage of every metric, strict and lenient, and what each test contributes uniquely.
 
     Returns a dictionary: ``metrics`` (metric → {strict, lenient} → items, exercised, unweighted,
@@ -279,14 +287,23 @@ def compute_coverage(tests: TestPaths, items: FieldItems, *, max_gap: int = 0, p
         "test_count": len(tests.test_ids),
     }
     if per_test:
-        result["tests"] = _contributions(tests, items, strict_codes, strict_patterns)
+        result["tests"] = _contributions(tests, items, strict_codes, strict_patterns, min_users)
+        result["min_users"] = min_users
     return result
 
 
 def _contributions(
-    tests: TestPaths, items: FieldItems, codes_by_test: list[np.ndarray], pattern_hits: np.ndarray
+    tests: TestPaths,
+    items: FieldItems,
+    codes_by_test: list[np.ndarray],
+    pattern_hits: np.ndarray,
+    min_users: int = DEFAULT_MIN_USERS,
 ) -> list[dict[str, Any]]:
     """Per test: items exercised, items no other test exercises, and those items' share of sessions.
+
+    The share counts only items taken by at least ``min_users`` distinct users: otherwise a suite
+    written to exercise one rare path would read that path's sessions off its unique share
+    (the threshold rule of ``gapfinder.disclosure``).
 
     Works on each test's own codes looked up in the sorted item codes, so memory grows with the
     suite, not with tests × field items.
@@ -312,7 +329,9 @@ def _contributions(
         for metric, in_metric in (("features", ks == 1), ("transitions", ks == 2), ("kpaths", ks >= 3)):
             row["exercised"][metric] = int(in_metric.sum())
             row["unique"][metric] = int((in_metric & only).sum())
-            unique_sessions = float(items.sessions[index[in_metric & only]].sum())
+            counted = index[in_metric & only]
+            counted = counted[items.users[counted] >= min_users]
+            unique_sessions = float(items.sessions[counted].sum())
             row["unique_session_share"][metric] = unique_sessions / totals[metric] if totals[metric] else 0.0
         if len(items.patterns):
             mine = pattern_hits[t]
@@ -320,18 +339,19 @@ def _contributions(
             total_p = float(items.pattern_sessions.sum())
             row["exercised"]["patterns"] = int(mine.sum())
             row["unique"]["patterns"] = int(only_p.sum())
-            share = float(items.pattern_sessions[only_p].sum()) / total_p if total_p else 0.0
+            share_p = only_p & (items.pattern_users >= min_users)
+            share = float(items.pattern_sessions[share_p].sum()) / total_p if total_p else 0.0
             row["unique_session_share"]["patterns"] = share
         rows.append(row)
     rows.sort(key=lambda r: (-r["unique_session_share"]["transitions"], -r["unique"]["transitions"], r["test_id"]))
     return rows
 
 
-def coverage_report(ws: Workspace, *, max_gap: int = 0) -> dict[str, Any]:
+def coverage_report(ws: Workspace, *, max_gap: int = 0, min_users: int = DEFAULT_MIN_USERS) -> dict[str, Any]:
     """Coverage of the stored suite against the workspace's usage profile (and mined patterns)."""
     tests = load_test_paths(ws)
     items = load_field_items(ws)
-    result = compute_coverage(tests, items, max_gap=max_gap)
+    result = compute_coverage(tests, items, max_gap=max_gap, min_users=min_users)
     result["workspace"] = str(ws.path)
     totals = fetch_dicts(ws.con, "summarize_sessions")[0]
     result["sessions"] = int(totals["session_count"] or 0)

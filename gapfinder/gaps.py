@@ -302,9 +302,12 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             )
         }
         segment_rows = fetch_dicts(con, "list_gap_segments", include_automated=include_automated)
+    # A segment value is named only when the gap's sessions in it and the value itself each have
+    # at least min_users distinct users (an app version one person used must not be shown).
     segment_totals = {
         (r["segment"], r["value"]): r["sessions"]
         for r in fetch_dicts(con, "list_segment_baseline", include_automated=include_automated)
+        if r["users"] >= options.min_users
     }
     segments_of: dict[int, list[dict[str, Any]]] = {}
     for r in segment_rows:
@@ -314,7 +317,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             continue
         gap_share = r["sessions"] / ev["sessions"]
         lift = gap_share / (overall / total)
-        if lift >= SEGMENT_LIFT and r["sessions"] >= max(options.min_users, 0.1 * ev["sessions"]):
+        if lift >= SEGMENT_LIFT and r["users"] >= options.min_users and r["sessions"] >= 0.1 * ev["sessions"]:
             segments_of.setdefault(r["candidate"], []).append(
                 {"segment": r["segment"], "value": r["value"], "share_of_gap": gap_share, "lift": lift}
             )

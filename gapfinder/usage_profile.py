@@ -233,7 +233,7 @@ def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_
     full_paths = list_full_paths(con, min_users=min_users, limit=top, total_sessions=total)
     distinct_paths = con.execute("SELECT count(*) FROM full_paths").fetchone()
     model = load_usage_model(con)
-    accounts = fetch_dicts(con, "list_automated_users", names=names)
+    accounts = fetch_dicts(con, "list_automated_users")
     return {
         "workspace": str(ws.path),
         "reading": reading,

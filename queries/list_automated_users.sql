@@ -1,6 +1,6 @@
 -- Returns, per automated user (numbered 1, 2, ... instead of any id), the statistics that
--- singled them out, their sessions and events, and their most frequent path as event names.
--- Reads automated_users, sessions. Parameters: $names.
+-- singled them out, and their sessions and events. No path: one account's path is one person's
+-- (or one robot's) record, below any privacy floor. Reads automated_users, sessions. Parameters: none.
 WITH numbered AS (
     SELECT user_key, dense_rank() OVER (ORDER BY user_key) AS account_no FROM automated_users
 ),
@@ -16,8 +16,7 @@ activity AS (
     SELECT
         user_key,
         count(*) AS session_count,
-        sum(event_count)::BIGINT AS event_count,
-        mode(path[1:8]) AS typical_path_start
+        sum(event_count)::BIGINT AS event_count
     FROM sessions
     WHERE user_key IN (SELECT user_key FROM automated_users)
     GROUP BY user_key
@@ -26,8 +25,7 @@ SELECT DISTINCT
     n.account_no,
     r.reasons,
     a.session_count,
-    a.event_count,
-    list_transform(a.typical_path_start, lambda x: $names[x + 1]) AS typical_path_start
+    a.event_count
 FROM numbered AS n
 JOIN reasons AS r USING (user_key)
 JOIN activity AS a USING (user_key)

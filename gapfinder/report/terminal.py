@@ -111,10 +111,7 @@ def render_profile(summary: dict[str, Any], console: Console) -> None:
             f"{automated['sessions']:,} sessions, {automated['events']:,} events"
         )
         for account in automated["accounts"]:
-            console.print(
-                f"  account {account['account_no']}: {'; '.join(account['reasons'])}; "
-                f"typically {format_path(account['typical_path_start'])} …"
-            )
+            console.print(f"  account {account['account_no']}: {'; '.join(account['reasons'])}")
     else:
         console.print("automated traffic: none flagged")
     privacy = summary.get("privacy", {})
@@ -475,5 +472,11 @@ def render_audit(result: dict[str, Any], console: Console) -> None:
         console.print(seg)
     for t in result["irrelevant_tests"]:
         console.print(
-            f"[yellow]journey left the field[/]: {t['test_id']} ({t['sessions_before']:,} sessions before, none now)"
+            f"[yellow]journey left the field[/]: {t['test_id']} ("
+            + (
+                f"{t['sessions_before']:,} sessions before"
+                if t["sessions_before"] is not None
+                else f"fewer than {result.get('min_users', 5)} users before"
+            )
+            + ", none now)"
         )
