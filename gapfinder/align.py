@@ -26,7 +26,7 @@ import yaml
 
 from gapfinder.errors import ConfigError
 from gapfinder.quoting import yaml_string
-from gapfinder.safe_io import write_text
+from gapfinder.safe_io import read_text, write_text
 
 __all__ = [
     "NameAligner",
@@ -58,9 +58,7 @@ def read_yaml_table(path: str | Path, *, key: str, option: str, what: str) -> di
     """The mapping under top-level ``key`` of a small YAML file; errors name ``option`` and the file."""
     where = str(path)
     try:
-        data = yaml.safe_load(Path(path).read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise ConfigError(f"{option} {where}: no such file") from None
+        data = yaml.safe_load(read_text(path, what="YAML file", option=option))
     except yaml.YAMLError:
         raise ConfigError(f"{option} {where}: not valid YAML") from None
     table = data.get(key) if isinstance(data, dict) else None

@@ -13,12 +13,12 @@ from __future__ import annotations
 import json
 from collections.abc import Sequence
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
 from gapfinder.coverage import METRICS, coverage_report
 from gapfinder.errors import ConfigError
 from gapfinder.gaps import GapOptions, find_gaps
+from gapfinder.safe_io import read_text
 from gapfinder.workspace import Workspace
 
 __all__ = ["Floor", "parse_floor", "run_gate"]
@@ -75,7 +75,7 @@ def parse_floor(text: str) -> Floor:
 
 def _baseline_paths(path: str) -> set[tuple[str, ...]]:
     try:
-        data = json.loads(Path(path).read_text(encoding="utf-8"))
+        data = json.loads(read_text(path, what="baseline file", option="--baseline"))
     except FileNotFoundError:
         raise ConfigError(f"--baseline {path}: no such file") from None
     except json.JSONDecodeError:
@@ -83,9 +83,23 @@ def _baseline_paths(path: str) -> set[tuple[str, ...]]:
     if not isinstance(data, dict) or not isinstance(data.get("gaps"), list):
         raise ConfigError(f"--baseline {path}: no `gaps` list; give the output of `gapfinder gaps --format json`")
     known = set()
-    for gap in data["gaps"]:
-        known.add(tuple(gap.get("path", [])))
-        known.update(tuple(f.get("path", [])) for f in gap.get("folded", []))
+
+    def path_of(entry: Any, n: int) -> tuple[str, ...]:
+        path = entry.get("path") if isinstance(entry, dict) else None
+        if not isinstance(path, list) or not all(isinstance(step, str) for step in path):
+            raise ConfigError(
+                f"--baseline {path_of_file}: gap {n} has no `path` list of event names; give the output of "
+                "`gapfinder gaps --format json`"
+            )
+        return tuple(path)
+
+    path_of_file = path
+    for n, gap in enumerate(data["gaps"], start=1):
+        known.add(path_of(gap, n))
+        folded = gap.get("folded", [])
+        if not isinstance(folded, list):
+            raise ConfigError(f"--baseline {path}: gap {n} has a `folded` that is not a list")
+        known.update(path_of(f, n) for f in folded)
     return known
 
 

@@ -109,3 +109,25 @@ def write_text(path: str | os.PathLike[str], text: str, *, option: str) -> Path:
     return write_files(
         target.parent if str(target.parent) else Path("."), {target.name: text}, option=option, create=False
     )[0]
+
+
+def read_text(path: str | os.PathLike[str], *, what: str = "file", option: str | None = None) -> str:
+    """The UTF-8 text of an input file (a byte-order mark is dropped); a file that is missing,
+    unreadable or not UTF-8 is an error naming it (and ``option``, which makes it a ConfigError)
+    and, for bad bytes, the line and byte where decoding failed."""
+    target = Path(path)
+    error: type[Exception] = ConfigError if option else InputError
+    where = f"{option} {target}" if option else str(target)
+    try:
+        data = target.read_bytes()
+    except FileNotFoundError:
+        raise error(f"{where}: no such file") from None
+    except IsADirectoryError:
+        raise error(f"{where}: is a folder, not a {what}") from None
+    except OSError as exc:
+        raise error(f"{where}: the {what} cannot be read ({_reason(exc)})") from None
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise error(f"{where}:{line}: the {what} is not UTF-8 text (byte {exc.start}); save it as UTF-8") from None

@@ -7,6 +7,7 @@ WITH classified AS (
         CASE
             WHEN user_id IS NULL OR trim(user_id) = '' THEN 'missing user id'
             WHEN NOT has_raw_ts THEN 'missing timestamp'
+            WHEN is_ts_outside_window THEN 'timestamp outside 1990-2099'
             WHEN ts IS NULL THEN 'unparsable timestamp'
             WHEN event IS NULL OR trim(event) = '' THEN 'missing event'
         END AS reason,

@@ -88,8 +88,13 @@ def resolve_files(inputs: Sequence[str | os.PathLike[str]]) -> SourceFiles:
     return SourceFiles(format=next(iter(kinds)), files=tuple(found), label=label)
 
 
-def open_relation(con: duckdb.DuckDBPyConnection, source: SourceFiles) -> duckdb.DuckDBPyRelation:
-    """A lazy DuckDB relation over every file of the source, columns united by name."""
+def open_relation(
+    con: duckdb.DuckDBPyConnection, source: SourceFiles, *, text_columns: Sequence[str] = ()
+) -> duckdb.DuckDBPyRelation:
+    """A lazy DuckDB relation over every file of the source, columns united by name.
+
+    ``text_columns`` of a CSV/TSV source are read as text rather than as the type DuckDB's
+    sniffer would infer (so that ``--ts-format`` sees the characters of the file)."""
     files = list(source.files)
     try:
         if source.format == "parquet":
@@ -99,6 +104,14 @@ def open_relation(con: duckdb.DuckDBPyConnection, source: SourceFiles) -> duckdb
                 if os.path.getsize(f) == 0:
                     raise InputError(f"{f}: the file is empty; it needs a header row and events")
             delimiter = "\t" if source.format == "tsv" else ","
+            if text_columns:
+                return con.read_csv(
+                    files,
+                    header=True,
+                    sep=delimiter,
+                    union_by_name=True,
+                    dtype={c: "VARCHAR" for c in text_columns},
+                )
             return con.read_csv(files, header=True, sep=delimiter, union_by_name=True)
         for f in files:
             if os.path.getsize(f) == 0:

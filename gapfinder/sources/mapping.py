@@ -7,6 +7,7 @@ from collections.abc import Iterable
 from pathlib import Path
 
 from gapfinder.errors import ConfigError
+from gapfinder.safe_io import read_text
 
 __all__ = ["CANONICAL_COLUMNS", "REQUIRED_COLUMNS", "load_config_columns", "parse_map_options"]
 
@@ -52,7 +53,7 @@ def load_config_columns(path: str | Path) -> dict[str, str]:
     """The ``[columns]`` table of a gapfinder.toml file (canonical name = source column)."""
     config = Path(path)
     try:
-        data = tomllib.loads(config.read_text(encoding="utf-8"))
+        data = tomllib.loads(read_text(config, what="configuration file", option="--config"))
     except FileNotFoundError:
         raise ConfigError(f"{config}: no such configuration file") from None
     except tomllib.TOMLDecodeError as exc:

@@ -36,6 +36,10 @@ _NUMERIC_TYPES = {
 # Epoch values at or above these bounds are read in the next finer unit (detection by size):
 # 1e11 s is the year 5138, so anything larger is not seconds, and so on down to nanoseconds.
 _EPOCH_DETECTION = ((1e11, "s"), (1e14, "ms"), (1e17, "us"))
+# Timestamps outside this window are rejected and counted ("timestamp outside 1990..2100"):
+# zeros read as 1970, or a 2^62 epoch read as 2116, are damaged values, not usage.
+PLAUSIBLE_FROM = "1990-01-01 00:00:00+00"
+PLAUSIBLE_TO = "2100-01-01 00:00:00+00"
 _ZONE_SUFFIX = r"(Z|z|[+-][0-9]{2}(:?[0-9]{2})?)$"
 
 
@@ -48,11 +52,15 @@ class TimestampReading:
     unit: str | None = None
     unit_detected: bool = False
     text_format: str | None = None
+    unit_counts: tuple[tuple[str, int], ...] = ()
 
     def describe(self) -> str:
         if self.kind == "epoch":
-            how = "detected from the values' size" if self.unit_detected else "set by --ts-unit"
-            return f"epoch {self.unit} ({self.source_type}; unit {how})"
+            if self.unit_detected:
+                counted = ", ".join(f"{n:,} in {u}" for u, n in self.unit_counts if n) or "no values"
+                mixed = " (MIXED units: check the source)" if sum(1 for _, n in self.unit_counts if n) > 1 else ""
+                return f"epoch numbers ({self.source_type}), unit detected per value from its size: {counted}{mixed}"
+            return f"epoch {self.unit} ({self.source_type}; unit set by --ts-unit)"
         if self.kind == "text":
             fmt = f"format {self.text_format!r}" if self.text_format else "ISO-8601"
             return f"text timestamps, {fmt}; those without a zone taken as UTC"
@@ -109,13 +117,42 @@ def _timestamp_expression(
         )
     if base in _NUMERIC_TYPES or is_numeric_text or (ts_unit and base in _TEXT_TYPES):
         number = col.try_cast(T.DOUBLE)
-        unit, detected = ts_unit, False
-        if unit is None:
-            median = relation.aggregate([FunctionExpression("median", FunctionExpression("abs", number))]).fetchall()
-            size = float(median[0][0]) if median and median[0][0] is not None else 0.0
-            unit = next((u for bound, u in _EPOCH_DETECTION if size < bound), "ns")
-            detected = True
-        micros = number * ConstantExpression(EPOCH_UNITS[unit])
+        size = FunctionExpression("abs", number)
+        if ts_unit is not None:
+            micros = number * ConstantExpression(EPOCH_UNITS[ts_unit])
+            reading = TimestampReading(type_name, "epoch", unit=ts_unit)
+        else:
+            # Each value's unit from its own size, so a column mixing seconds and milliseconds is read
+            # right and the summary says it is mixed (a single guess from the median would turn half
+            # of such a column into 1970).
+            micros = (
+                CaseExpression(size < ConstantExpression(_EPOCH_DETECTION[0][0]), number * ConstantExpression(1e6))
+                .when(size < ConstantExpression(_EPOCH_DETECTION[1][0]), number * ConstantExpression(1e3))
+                .when(size < ConstantExpression(_EPOCH_DETECTION[2][0]), number)
+                .otherwise(number * ConstantExpression(1e-3))
+            )
+            aggregates = [
+                FunctionExpression("count", number).alias("n"),
+                *(
+                    FunctionExpression(
+                        "sum",
+                        CaseExpression(size < ConstantExpression(bound), ConstantExpression(1)).otherwise(
+                            ConstantExpression(0)
+                        ),
+                    ).alias(f"below_{unit}")
+                    for bound, unit in _EPOCH_DETECTION
+                ),
+            ]
+            row = relation.aggregate(aggregates).fetchall()[0]
+            total, below = int(row[0] or 0), [int(v or 0) for v in row[1:]]
+            per_unit = (
+                ("s", below[0]),
+                ("ms", below[1] - below[0]),
+                ("us", below[2] - below[1]),
+                ("ns", total - below[2]),
+            )
+            main = max(per_unit, key=lambda kv: kv[1])[0] if total else "s"
+            reading = TimestampReading(type_name, "epoch", unit=main, unit_detected=True, unit_counts=per_unit)
         # Outside about ±290,000 years make_timestamp overflows; such values are unparsable.
         in_range = FunctionExpression("abs", micros) < ConstantExpression(9.2e18)
         converted = (
@@ -123,11 +160,7 @@ def _timestamp_expression(
             .otherwise(ConstantExpression(None))
             .cast(T.TIMESTAMP_TZ)
         )
-        return (
-            converted,
-            ConstantExpression(False),
-            TimestampReading(type_name, "epoch", unit=unit, unit_detected=detected),
-        )
+        return converted, ConstantExpression(False), reading
     if base in _TEXT_TYPES:
         if ts_format:
             parsed = FunctionExpression("try_strptime", col, ConstantExpression(ts_format))
@@ -147,6 +180,19 @@ def _timestamp_expression(
         f"{label}: timestamp column {column!r} has type {type_name}; gapfinder reads timestamps, "
         "ISO-8601 text or epoch numbers"
     )
+
+
+def _check_ts_format(con: duckdb.DuckDBPyConnection, ts_format: str) -> None:
+    """Refuse a --ts-format that DuckDB's strptime does not understand (instead of ignoring it)."""
+    if "%" not in ts_format:
+        raise ConfigError(f"--ts-format {ts_format!r}: give strptime codes such as '%d/%m/%Y %H:%M'")
+    try:
+        con.execute("SELECT try_strptime('2026-01-01', $format)", {"format": ts_format}).fetchall()
+    except duckdb.Error:
+        raise ConfigError(
+            f"--ts-format {ts_format!r}: not a strptime format (unknown % code); see the strptime codes, "
+            "e.g. '%d/%m/%Y %H:%M'"
+        ) from None
 
 
 def open_telemetry(
@@ -186,6 +232,18 @@ def open_telemetry(
                 f"{files.label}: required column {canonical!r} is missing; the columns are "
                 f"{', '.join(source_columns)}. Map one with --map {canonical}=<column>"
             )
+    if ts_format is not None:
+        _check_ts_format(con, ts_format)
+        ts_source = chosen["ts"]
+        if types[ts_source].split("(")[0].upper() not in _TEXT_TYPES:
+            if files.format not in ("csv", "tsv"):
+                raise ConfigError(
+                    f"--ts-format {ts_format!r}: column {ts_source!r} of {files.label} already holds "
+                    f"{types[ts_source]} values, not text; drop --ts-format"
+                )
+            # The CSV sniffer typed the column itself (perhaps day-first): read its text instead.
+            relation = open_relation(con, files, text_columns=(ts_source,))
+            types[ts_source] = "VARCHAR"
     ts_expr, naive_expr, reading = _timestamp_expression(
         con,
         relation,
@@ -196,9 +254,13 @@ def open_telemetry(
         label=files.label,
     )
     projections: list[duckdb.Expression] = []
+    within = (ts_expr >= ConstantExpression(PLAUSIBLE_FROM).cast(T.TIMESTAMP_TZ)) & (
+        ts_expr < ConstantExpression(PLAUSIBLE_TO).cast(T.TIMESTAMP_TZ)
+    )
     for canonical in CANONICAL_COLUMNS:
         if canonical == "ts":
-            projections.append(ts_expr.alias("ts"))
+            projections.append(CaseExpression(within, ts_expr).otherwise(ConstantExpression(None)).alias("ts"))
+            projections.append((ts_expr.isnotnull() & ~within).alias("is_ts_outside_window"))
             projections.append(ColumnExpression(chosen["ts"]).isnotnull().alias("has_raw_ts"))
             projections.append(naive_expr.alias("is_naive_ts"))
         elif canonical in chosen:

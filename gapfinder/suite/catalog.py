@@ -14,6 +14,7 @@ from pathlib import Path
 import yaml
 
 from gapfinder.errors import InputError
+from gapfinder.safe_io import read_text
 from gapfinder.suite.model import ReaderReport, TestTrace
 
 __all__ = ["read_catalog"]
@@ -23,7 +24,7 @@ def read_catalog(path: str | Path) -> ReaderReport:
     """Read a catalog file; every malformed entry is an error naming the file and the entry."""
     where = str(path)
     try:
-        data = yaml.safe_load(Path(path).read_text(encoding="utf-8"))
+        data = yaml.safe_load(read_text(path, what="test catalog"))
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         line = f" at line {mark.line + 1}" if mark is not None else ""

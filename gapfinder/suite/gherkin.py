@@ -22,6 +22,7 @@ from pathlib import Path
 
 from gapfinder.align import read_yaml_table
 from gapfinder.errors import ConfigError, InputError
+from gapfinder.safe_io import read_text
 from gapfinder.suite.model import ReaderReport, TestTrace
 
 __all__ = ["StepPhrases", "read_feature_file"]
@@ -67,7 +68,7 @@ def read_feature_file(path: str | Path, phrases: StepPhrases | None = None) -> R
 
     where = str(path)
     try:
-        document = Parser().parse(Path(path).read_text(encoding="utf-8"))
+        document = Parser().parse(read_text(path, what="Gherkin file"))
     except (CompositeParserException, ParserError) as exc:
         first = str(exc).strip().splitlines()[0]
         raise InputError(f"{where}: not valid Gherkin ({first})") from None

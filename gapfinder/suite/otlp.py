@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from gapfinder.errors import InputError
+from gapfinder.safe_io import read_text
 from gapfinder.suite.model import ReaderReport, TestTrace
 
 __all__ = ["TEST_CASE_ATTRIBUTE", "looks_like_otlp", "read_otlp_json"]
@@ -39,7 +40,7 @@ def _attributes(items: list[dict[str, Any]] | None) -> dict[str, Any]:
 
 
 def _documents(path: Path) -> Iterator[tuple[int, dict[str, Any]]]:
-    text = path.read_text(encoding="utf-8")
+    text = read_text(path, what="OTLP/JSON file")
     try:
         yield 1, json.loads(text)
         return
@@ -62,25 +63,31 @@ def read_otlp_json(path: str | Path) -> ReaderReport:
     for line_no, document in _documents(Path(path)):
         if not isinstance(document, dict) or not isinstance(document.get("resourceSpans"), list):
             raise InputError(f"{where}: line {line_no} is not an OTLP/JSON document (no resourceSpans list)")
-        for resource_spans in document["resourceSpans"]:
-            resource = _attributes((resource_spans.get("resource") or {}).get("attributes"))
-            for scope in resource_spans.get("scopeSpans", []) or []:
-                for span in scope.get("spans", []) or []:
-                    attributes = {**resource, **_attributes(span.get("attributes"))}
-                    test_id = str(attributes.get(TEST_CASE_ATTRIBUTE) or "").strip()
-                    name = str(span.get("name") or "").strip()
-                    if not test_id:
-                        report.skip(f"spans without a {TEST_CASE_ATTRIBUTE} attribute")
-                        continue
-                    if not name:
-                        report.skip("spans without a name")
-                        continue
-                    try:
-                        started = int(span.get("startTimeUnixNano") or 0)
-                    except (TypeError, ValueError):
-                        raise InputError(f"{where}: span {name!r} has an unreadable startTimeUnixNano") from None
-                    spans.setdefault(test_id, []).append((started, order, name))
-                    order += 1
+        try:
+            for resource_spans in document["resourceSpans"]:
+                resource = _attributes((resource_spans.get("resource") or {}).get("attributes"))
+                for scope in resource_spans.get("scopeSpans", []) or []:
+                    for span in scope.get("spans", []) or []:
+                        attributes = {**resource, **_attributes(span.get("attributes"))}
+                        test_id = str(attributes.get(TEST_CASE_ATTRIBUTE) or "").strip()
+                        name = str(span.get("name") or "").strip()
+                        if not test_id:
+                            report.skip(f"spans without a {TEST_CASE_ATTRIBUTE} attribute")
+                            continue
+                        if not name:
+                            report.skip("spans without a name")
+                            continue
+                        try:
+                            started = int(span.get("startTimeUnixNano") or 0)
+                        except (TypeError, ValueError):
+                            raise InputError(f"{where}: span {name!r} has an unreadable startTimeUnixNano") from None
+                        spans.setdefault(test_id, []).append((started, order, name))
+                        order += 1
+        except (AttributeError, TypeError, ValueError):
+            raise InputError(
+                f"{where}: line {line_no}: a resourceSpans entry has the wrong JSON type (objects and lists as in "
+                "the OTLP/JSON encoding are expected)"
+            ) from None
     report.traces = [TestTrace(t, [n for _, _, n in sorted(s)], where, "otlp") for t, s in spans.items()]
     if not report.traces:
         raise InputError(f"{where}: no span carries a {TEST_CASE_ATTRIBUTE} attribute naming its test")
