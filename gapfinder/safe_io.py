@@ -70,7 +70,8 @@ def write_files(
     temporaries: list[tuple[str, Path]] = []
     try:
         for target, content in targets:
-            data = content.encode("utf-8") if isinstance(content, str) else content
+            # a lone surrogate from a hostile name is written as its escape, keeping the file UTF-8
+            data = content.encode("utf-8", "backslashreplace") if isinstance(content, str) else content
             fd, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
             temporaries.append((temporary, target))
             with os.fdopen(fd, "wb") as handle:
