@@ -1,0 +1,180 @@
+"""The suppression rule against differencing attacks: no hidden cell can be recovered by
+subtracting what listings show from the totals they show.
+
+The rule is the threshold rule with complementary suppression, common practice in official
+statistics (statistical disclosure control of frequency tables).
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from pathlib import Path
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from gapfinder.disclosure import complementary_suppression
+from gapfinder.patterns import usage_paths
+from gapfinder.usage_profile import ProfileOptions, profile_telemetry
+from gapfinder.workspace import Workspace
+from tests.helpers import at, write_events
+
+FLOOR = 5
+
+
+@pytest.fixture(scope="module")
+def rare_workspace(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[list[str]]]:
+    """40 users on common flows; one user on a rare feature, three on a rare transition."""
+    folder = tmp_path_factory.mktemp("rare")
+    rows = []
+    sessions: list[list[str]] = []
+    flows = {
+        "buy": ["open", "list", "item", "pay"],
+        "look": ["open", "search", "item"],
+        "tune": ["open", "settings"],
+    }
+    plan = [(f"user{n}@mail.example", ["buy", "look", "tune"][n % 3]) for n in range(40)]
+    plan += [("loner@mail.example", "secret")]  # one person: a feature nobody else uses
+    plan += [(f"trio{n}@mail.example", "odd") for n in range(3)]  # three people: a rare transition
+    flows["secret"] = ["open", "alice.smith@private.example", "pay"]
+    flows["odd"] = ["open", "settings", "pay"]
+    for n, (user, flow) in enumerate(plan):
+        start = n * 7200
+        path = flows[flow]
+        sessions.append(path)
+        rows += [(user, at(start + 30 * i), e) for i, e in enumerate(path)]
+    telemetry = write_events(folder / "events.parquet", rows)
+    ws = folder / "ws.duckdb"
+    profile_telemetry([telemetry], ws, ProfileOptions(), min_users=FLOOR)
+    return ws, sessions
+
+
+def _listing(ws: Path, kind: str, **options: object) -> dict:
+    with Workspace(ws, read_only=True) as w:
+        return usage_paths(w, kind, top=0, min_users=FLOOR, **options)  # type: ignore[arg-type]
+
+
+def _truth(sessions: list[list[str]]) -> tuple[Counter, Counter, Counter]:
+    features: Counter = Counter()
+    transitions: Counter = Counter()
+    full: Counter = Counter()
+    for path in sessions:
+        framed = ["START", *path, "END"]
+        features.update(path)
+        transitions.update(zip(framed, framed[1:], strict=False))
+        full[tuple(path)] += 1
+    return features, transitions, full
+
+
+def test_features_do_not_give_away_a_hidden_one_by_subtraction(rare_workspace: tuple[Path, list]) -> None:
+    ws, sessions = rare_workspace
+    features, _, _ = _truth(sessions)
+    shown = {tuple(r["path"])[0]: r["occurrences"] for r in _listing(ws, "features")["rows"]}
+    total_events = sum(features.values())  # the profile summary prints this total
+    residual = total_events - sum(shown.values())
+    hidden = {f: n for f, n in features.items() if f not in shown}
+    assert "alice.smith@private.example" in hidden  # primary suppression: one user
+    assert len(hidden) >= 2, "a lone hidden feature would equal the residual"
+    assert all(residual != n for n in hidden.values())
+
+
+def test_transitions_out_of_a_feature_do_not_give_away_a_hidden_one(rare_workspace: tuple[Path, list]) -> None:
+    ws, sessions = rare_workspace
+    features, transitions, _ = _truth(sessions)
+    shown_features = {tuple(r["path"])[0]: r["occurrences"] for r in _listing(ws, "features")["rows"]}
+    shown = {tuple(r["path"]): r["occurrences"] for r in _listing(ws, "transitions")["rows"]}
+    for source, occurrences in shown_features.items():
+        outgoing = {t: n for t, n in transitions.items() if t[0] == source}
+        hidden = {t: n for t, n in outgoing.items() if t not in shown}
+        residual = occurrences - sum(n for t, n in outgoing.items() if t in shown)
+        assert len(hidden) != 1, f"{source}: one hidden transition out of it equals the residual {residual}"
+        incoming = {t: n for t, n in transitions.items() if t[1] == source}
+        hidden_in = [t for t in incoming if t not in shown]
+        assert len(hidden_in) != 1
+    # the rare transition used by three people is hidden
+    assert ("settings", "pay") not in shown
+
+
+def test_full_paths_do_not_give_away_a_hidden_one(rare_workspace: tuple[Path, list]) -> None:
+    ws, sessions = rare_workspace
+    _, _, full = _truth(sessions)
+    shown = {tuple(r["path"]): r["sessions"] for r in _listing(ws, "full")["rows"]}
+    hidden = {p: n for p, n in full.items() if p not in shown}
+    residual = len(sessions) - sum(shown.values())
+    assert len(hidden) != 1
+    assert all(residual != n for n in hidden.values()) or not hidden
+
+
+def test_hidden_counts_do_not_move_with_min_support(rare_workspace: tuple[Path, list]) -> None:
+    ws, _ = rare_workspace
+    held = set()
+    for support in (1, 2, 3, 5, 10, 0.01, 0.2):
+        result = _listing(ws, "transitions", min_support=support)
+        assert "suppressed_sessions" not in result
+        held.add(result["suppressed"])
+    assert len(held) == 1  # a sweep of --min-support cannot difference the hidden rows
+
+
+def test_unique_contribution_of_a_rare_path_is_not_shown(rare_workspace: tuple[Path, list], tmp_path: Path) -> None:
+    import shutil
+
+    from gapfinder.coverage import coverage_report
+    from gapfinder.suite import load_suite
+
+    ws_path = tmp_path / "ws.duckdb"
+    shutil.copy(rare_workspace[0], ws_path)
+    catalog = tmp_path / "catalog.yaml"
+    catalog.write_text("tests:\n  - id: probe\n    steps: [settings, pay]\n  - id: base\n    steps: [open, list, item, pay]\n")
+    with Workspace(ws_path) as ws:
+        load_suite(ws, [catalog])
+        result = coverage_report(ws, min_users=FLOOR)
+    probe = next(t for t in result["tests"] if t["test_id"] == "probe")
+    assert probe["unique"]["transitions"] >= 1  # it does exercise the rare transition alone
+    assert probe["unique_session_share"]["transitions"] == 0.0  # but its sessions are not shown
+
+
+def test_align_never_suggests_an_event_fewer_than_the_floor_used(
+    rare_workspace: tuple[Path, list], tmp_path: Path
+) -> None:
+    import shutil
+
+    from gapfinder.align import suggest_for_workspace
+    from gapfinder.suite import load_suite
+
+    ws_path = tmp_path / "ws.duckdb"
+    shutil.copy(rare_workspace[0], ws_path)
+    catalog = tmp_path / "catalog.yaml"
+    catalog.write_text("tests:\n  - id: probe\n    steps: [alice smith private example]\n")
+    with Workspace(ws_path) as ws:
+        load_suite(ws, [catalog])
+        result = suggest_for_workspace(ws, min_score=0.0, min_users=FLOOR)
+    assert all(s["event"] != "alice.smith@private.example" for s in result["suggestions"])
+
+
+def test_profile_summary_names_no_automated_path_and_no_hidden_name(rare_workspace: tuple[Path, list]) -> None:
+    import json
+
+    from gapfinder.usage_profile import summarize_profile
+
+    with Workspace(rare_workspace[0], read_only=True) as ws:
+        text = json.dumps(summarize_profile(ws, top=50, min_users=FLOOR), default=str)
+    assert "alice.smith" not in text and "@mail.example" not in text
+    assert "typical_path" not in text
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    st.lists(st.tuples(st.integers(0, 4), st.integers(1, 50), st.booleans()), min_size=1, max_size=30),
+)
+def test_no_partition_group_is_left_with_one_hidden_member(cells: list[tuple[int, int, bool]]) -> None:
+    """Property: after the rule, no group holds exactly one hidden member, whatever the input."""
+    keys = np.arange(1, len(cells) + 1, dtype=np.int64) + 100
+    groups = np.array([c[0] for c in cells], dtype=np.int64)
+    values = np.array([c[1] for c in cells], dtype=np.int64)
+    primary = np.array([c[2] for c in cells])
+    hidden = complementary_suppression(keys, values, primary, [groups])
+    assert (hidden | ~primary).all() and (hidden >= primary).all()
+    for g in np.unique(groups):
+        assert hidden[groups == g].sum() != 1 or (groups == g).sum() == 1
