@@ -7,6 +7,7 @@ Exit codes: 0 success, 1 a check failed, 2 bad input or usage, 3 an internal err
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import functools
 import io
@@ -208,11 +209,15 @@ class GapfinderGroup(click.Group):
                 traceback.print_exc()
             click.echo(f"gapfinder: {describe_database_error(exc)}", err=True)
             ctx.exit(2)
+        except BrokenPipeError:  # the reader of stdout went away (`| head`): nothing to report
+            with contextlib.suppress(OSError):
+                os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+            ctx.exit(0)
         except OSError as exc:
             if debug:
                 traceback.print_exc()
             name = f"{exc.filename}: " if exc.filename else ""
-            click.echo(f"gapfinder: {name}{exc.strerror or type(exc).__name__}; nothing was changed", err=True)
+            click.echo(f"gapfinder: {name}{exc.strerror or type(exc).__name__}", err=True)
             ctx.exit(2)
         except KeyboardInterrupt:
             click.echo("gapfinder: interrupted; the workspace keeps its previous results", err=True)

@@ -8,12 +8,14 @@ test lead can paste into a pull request or a wiki.
 from __future__ import annotations
 
 import os
+import shutil
+import tempfile
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from gapfinder.errors import ConfigError
+from gapfinder.errors import ConfigError, InputError
 from gapfinder.export import export_plan
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.patterns import MiningOptions, mine_workspace
@@ -22,7 +24,7 @@ from gapfinder.quoting import markdown_code
 from gapfinder.report.markdown import markdown_path as _path
 from gapfinder.report.markdown import percent as _pct
 from gapfinder.report.markdown import privacy_note
-from gapfinder.safe_io import write_files
+from gapfinder.safe_io import check_target, write_files
 from gapfinder.suite import SuiteOptions, load_suite, read_suite
 from gapfinder.usage_profile import ProfileOptions, profile_telemetry
 from gapfinder.workspace import Workspace
@@ -60,7 +62,46 @@ def run_pipeline(
     if folder.exists() and not folder.is_dir():
         raise ConfigError(f"--out {folder}: exists and is not a folder")
     read_suite(tests, suite or SuiteOptions())  # bad test sources fail now, before any work is written
-    folder.mkdir(parents=True, exist_ok=True)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        # Everything is made in a staging folder inside OUT first; only when every stage worked and
+        # no skeleton would overwrite a different file does it move into place. A failure leaves
+        # OUT as it was.
+        staging = Path(tempfile.mkdtemp(prefix=".gapfinder-run-", dir=folder))
+    except OSError as exc:
+        raise InputError(f"--out {folder}: cannot write there ({exc.strerror})") from None
+    try:
+        result = _run_into(staging, telemetry, tests, profile, suite, plan, mining, top, min_users, say)
+        outputs = {name: (staging / name).read_bytes() for name in result.files}
+        for name, content in outputs.items():
+            existing = folder / name
+            if existing.is_file() and not force and existing.read_bytes() != content and name != "summary.md":
+                raise ConfigError(f"{existing} exists and differs: pass --force to overwrite it")
+        by_folder: dict[Path, dict[str, bytes]] = {}
+        for name, content in outputs.items():
+            by_folder.setdefault((folder / name).parent, {})[Path(name).name] = content
+        os.replace(staging / "workspace.duckdb", check_target(folder, "workspace.duckdb", option="--out"))
+        for target_folder, files in sorted(by_folder.items()):
+            write_files(target_folder, files, option="--out")
+    finally:
+        shutil.rmtree(staging, ignore_errors=True)
+    final = folder / "workspace.duckdb"
+    result.summary["profile"]["workspace"] = str(final)
+    return PipelineResult(folder, final, result.files, result.summary)
+
+
+def _run_into(
+    folder: Path,
+    telemetry: Sequence[str | os.PathLike[str]],
+    tests: Sequence[str | os.PathLike[str]],
+    profile: ProfileOptions | None,
+    suite: SuiteOptions | None,
+    plan: PlanOptions | None,
+    mining: MiningOptions | None,
+    top: int,
+    min_users: int,
+    say: Callable[[str], None],
+) -> PipelineResult:
     workspace = folder / "workspace.duckdb"
     say("profiling telemetry")
     profile_summary = profile_telemetry(telemetry, workspace, profile or ProfileOptions(), min_users=min_users)
@@ -78,8 +119,8 @@ def run_pipeline(
     if planned["scenarios"]:
         say("exporting skeletons")
         for fmt, sub in (("pytest", "pytest"), ("gherkin", "gherkin"), ("json", "."), ("csv", ".")):
-            result = export_plan(planned, folder / sub, as_format=fmt, force=force)
-            files += [str(Path(sub) / f) if sub != "." else f for f in result.files]
+            exported = export_plan(planned, folder / sub, as_format=fmt, force=True)
+            files += [str(Path(sub) / f) if sub != "." else f for f in exported.files]
     summary = {
         "profile": profile_summary,
         "suite": suite_summary,
@@ -88,8 +129,7 @@ def run_pipeline(
         "unused": unused,
         "plan": planned,
     }
-    markdown = render_summary_markdown(summary)
-    write_files(folder, {"summary.md": markdown}, option="--out")
+    write_files(folder, {"summary.md": render_summary_markdown(summary)}, option="--out")
     files.append("summary.md")
     return PipelineResult(folder, workspace, sorted(files), summary)
 
