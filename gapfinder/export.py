@@ -201,7 +201,9 @@ def export_plan(
     elif as_format == "gherkin":
         files = _gherkin_files(plan, phrases)
     elif as_format == "json":
-        files = {"gapfinder_plan.json": json.dumps(plan, indent=2, sort_keys=True, default=str) + "\n"}
+        # where the workspace lay is left out: the same plan gives the same bytes wherever it is
+        portable = {k: v for k, v in plan.items() if k != "workspace"}
+        files = {"gapfinder_plan.json": json.dumps(portable, indent=2, sort_keys=True, default=str) + "\n"}
     else:
         files = {"gapfinder_plan.csv": _csv_file(plan)}
     for name, text in files.items():
