@@ -28,7 +28,7 @@ from typing import Any
 import duckdb
 import numpy as np
 
-from gapfinder.errors import ConfigError
+from gapfinder.errors import ConfigError, InputError
 from gapfinder.mining import SequenceDatabase, containing_sequences
 from gapfinder.paths import feature_names
 from gapfinder.patterns import profile_included_automated
@@ -76,6 +76,8 @@ def parse_period(text: str, option: str = "--period") -> Period:
         raise ConfigError(f"{option} {text!r}: {exc}") from None
     if last < first:
         raise ConfigError(f"{option} {text!r}: the last day comes before the first")
+    if first.year < 1990 or last.year > 2099:
+        raise ConfigError(f"{option} {text!r}: give days between 1990 and 2099 (telemetry outside is rejected)")
     start = datetime(first.year, first.month, first.day, tzinfo=UTC)
     end = datetime(last.year, last.month, last.day, tzinfo=UTC) + timedelta(days=1)
     return Period(start, end, text.strip())
@@ -323,6 +325,18 @@ def audit(ws: Workspace, options: AuditOptions | None = None) -> dict[str, Any]:
         before_period = options.against or default_before
         before = _counts(ws.con, before_period)
     now = _counts(ws.con, current_period)
+    window = None
+    for counts, option in ((now, "--period"), (before, "--against")):
+        if counts.sessions == 0:
+            if window is None:
+                row = fetch_dicts(
+                    ws.con, "summarize_session_window", include_automated=profile_included_automated(ws.con)
+                )[0]
+                window = f"{str(row['first_start'])[:10]} to {str(row['last_start'])[:10]}"
+            raise InputError(
+                f"{option} {counts.period.label}: no sessions in that period (the workspace's sessions run from "
+                f"{window}); give days inside it"
+            )
     moves = _movers(now, before, options.min_users, options.top)
     journeys_now = _journey_sessions(now, journeys, options.min_users)
     journeys_before = _journey_sessions(before, journeys, options.min_users)

@@ -16,9 +16,11 @@ A step no phrase matches keeps its text as the step name and is listed as unmatc
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
+
+import regex
 
 from gapfinder.align import read_yaml_table
 from gapfinder.errors import ConfigError, InputError
@@ -28,11 +30,14 @@ from gapfinder.suite.model import ReaderReport, TestTrace
 __all__ = ["StepPhrases", "read_feature_file"]
 
 
+MATCH_SECONDS = 0.5
+
+
 @dataclass(frozen=True)
 class StepPhrases:
     """Compiled phrase → event rules, first match wins."""
 
-    rules: tuple[tuple[re.Pattern[str], str | None], ...] = ()
+    rules: tuple[tuple[Any, str | None], ...] = ()
     source: str = ""
 
     @classmethod
@@ -42,8 +47,8 @@ class StepPhrases:
         rules = []
         for phrase, event in table.items():
             try:
-                pattern = re.compile(str(phrase), re.IGNORECASE)
-            except re.error as exc:
+                pattern = regex.compile(str(phrase), regex.IGNORECASE | regex.V0)
+            except regex.error as exc:
                 raise ConfigError(
                     f"--steps-map {where}: phrase {phrase!r} is not a valid regular expression ({exc})"
                 ) from None
@@ -55,8 +60,16 @@ class StepPhrases:
     def event_for(self, text: str) -> tuple[bool, str | None]:
         """(matched, event): event None with matched True means the step is ignored on purpose."""
         for pattern, event in self.rules:
-            if pattern.fullmatch(text.strip()):
-                return True, event
+            try:
+                # The `regex` engine with a time bound: a phrase that backtracks catastrophically
+                # (such as "(a|aa)+$") stops with an error naming it instead of hanging the run.
+                if pattern.fullmatch(text.strip(), timeout=MATCH_SECONDS):
+                    return True, event
+            except TimeoutError:
+                raise ConfigError(
+                    f"--steps-map {self.source}: phrase {pattern.pattern!r} took over {MATCH_SECONDS} s on one step "
+                    "(it backtracks catastrophically); rewrite it without nested repetition"
+                ) from None
         return False, None
 
 
