@@ -7,6 +7,7 @@ statistics (statistical disclosure control of frequency tables).
 
 from __future__ import annotations
 
+import itertools
 from collections import Counter
 from pathlib import Path
 
@@ -63,7 +64,7 @@ def _truth(sessions: list[list[str]]) -> tuple[Counter, Counter, Counter]:
     for path in sessions:
         framed = ["START", *path, "END"]
         features.update(path)
-        transitions.update(zip(framed, framed[1:], strict=False))
+        transitions.update(itertools.pairwise(framed))
         full[tuple(path)] += 1
     return features, transitions, full
 
@@ -71,7 +72,7 @@ def _truth(sessions: list[list[str]]) -> tuple[Counter, Counter, Counter]:
 def test_features_do_not_give_away_a_hidden_one_by_subtraction(rare_workspace: tuple[Path, list]) -> None:
     ws, sessions = rare_workspace
     features, _, _ = _truth(sessions)
-    shown = {tuple(r["path"])[0]: r["occurrences"] for r in _listing(ws, "features")["rows"]}
+    shown = {r["path"][0]: r["occurrences"] for r in _listing(ws, "features")["rows"]}
     total_events = sum(features.values())  # the profile summary prints this total
     residual = total_events - sum(shown.values())
     hidden = {f: n for f, n in features.items() if f not in shown}
@@ -82,8 +83,8 @@ def test_features_do_not_give_away_a_hidden_one_by_subtraction(rare_workspace: t
 
 def test_transitions_out_of_a_feature_do_not_give_away_a_hidden_one(rare_workspace: tuple[Path, list]) -> None:
     ws, sessions = rare_workspace
-    features, transitions, _ = _truth(sessions)
-    shown_features = {tuple(r["path"])[0]: r["occurrences"] for r in _listing(ws, "features")["rows"]}
+    _, transitions, _ = _truth(sessions)
+    shown_features = {r["path"][0]: r["occurrences"] for r in _listing(ws, "features")["rows"]}
     shown = {tuple(r["path"]): r["occurrences"] for r in _listing(ws, "transitions")["rows"]}
     for source, occurrences in shown_features.items():
         outgoing = {t: n for t, n in transitions.items() if t[0] == source}
@@ -126,7 +127,9 @@ def test_unique_contribution_of_a_rare_path_is_not_shown(rare_workspace: tuple[P
     ws_path = tmp_path / "ws.duckdb"
     shutil.copy(rare_workspace[0], ws_path)
     catalog = tmp_path / "catalog.yaml"
-    catalog.write_text("tests:\n  - id: probe\n    steps: [settings, pay]\n  - id: base\n    steps: [open, list, item, pay]\n")
+    catalog.write_text(
+        "tests:\n  - id: probe\n    steps: [settings, pay]\n  - id: base\n    steps: [open, list, item, pay]\n"
+    )
     with Workspace(ws_path) as ws:
         load_suite(ws, [catalog])
         result = coverage_report(ws, min_users=FLOOR)
