@@ -75,7 +75,7 @@ def test_no_raw_id_in_any_output(tmp_path: Path, keyed: bool) -> None:
 @pytest.mark.slow
 def test_kill_during_profile_leaves_the_earlier_workspace_identical(tmp_path: Path) -> None:
     demo = tmp_path / "demo"
-    made = CliRunner().invoke(cli, ["demo", "--out", str(demo), "--events", "2000000"])
+    made = CliRunner().invoke(cli, ["demo", "--out", str(demo), "--events", "4000000"])
     assert made.exit_code == 0, made.stderr
     ws = tmp_path / "ws.duckdb"
     first = CliRunner().invoke(cli, ["profile", str(SAMPLE / "field"), "-w", str(ws)])
@@ -88,7 +88,8 @@ def test_kill_during_profile_leaves_the_earlier_workspace_identical(tmp_path: Pa
         stdout=subprocess.DEVNULL,
         stderr=subprocess.DEVNULL,
     )
-    time.sleep(2.5)  # well inside the profile of two million events
+    time.sleep(2.0)  # well inside the profile of four million events (about 7 s on 2 cores)
+    assert process.poll() is None, "profile finished before the kill: give it more events"
     process.send_signal(signal.SIGKILL)
     process.wait()
     after = CliRunner().invoke(cli, ["paths", "-w", str(ws), "--kind", "full", "--top", "0", "--format", "csv"])
