@@ -156,7 +156,7 @@ def _exercised(ws: Workspace) -> tuple[set[tuple[str, ...]], set[tuple[str, ...]
     features: set[tuple[str, ...]] = set()
     transitions: set[tuple[str, ...]] = set()
     journeys = []
-    for test_id, path in ws.con.execute("SELECT test_id, path FROM suite_tests ORDER BY test_id").fetchall():
+    for test_id, path in [(r["test_id"], r["path"]) for r in fetch_dicts(ws.con, "list_counted_test_paths")]:
         framed = [START, *(names[e] if e >= 0 else None for e in path), END]
         features.update((e,) for e in framed[1:-1] if e is not None)
         transitions.update((a, b) for a, b in itertools.pairwise(framed) if a and b)

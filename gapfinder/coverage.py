@@ -154,7 +154,7 @@ class FieldItems:
 
 def load_test_paths(ws: Workspace) -> TestPaths:
     ws.require("suite_tests", hint="run `gapfinder suite TRACES... -w ...` first")
-    rows = ws.con.execute("SELECT test_id, path FROM suite_tests ORDER BY test_id").fetchall()
+    rows = [(r["test_id"], r["path"]) for r in fetch_dicts(ws.con, "list_counted_test_paths")]
     if not rows:
         raise ConfigError(f"workspace {ws.path}: the stored suite has no tests; run `gapfinder suite` with some")
     return TestPaths([r[0] for r in rows], [[START, *list(r[1]), END] for r in rows])
@@ -355,4 +355,23 @@ def coverage_report(ws: Workspace, *, max_gap: int = 0, min_users: int = DEFAULT
     result["workspace"] = str(ws.path)
     totals = fetch_dicts(ws.con, "summarize_sessions")[0]
     result["sessions"] = int(totals["session_count"] or 0)
+    result["suite"] = suite_reading(ws)
     return result
+
+
+def suite_reading(ws: Workspace) -> dict[str, Any]:
+    """How much of the stored suite counts: tests counted and left out (by reason), steps mapped."""
+    from gapfinder.suite.stage import summarize_suite
+
+    summary = summarize_suite(ws)
+    return {
+        key: summary[key]
+        for key in (
+            "test_count",
+            "counted_test_count",
+            "left_out",
+            "step_count",
+            "mapped_step_count",
+            "unmapped_step_count",
+        )
+    }

@@ -369,6 +369,9 @@ def unused_tests(
 ) -> dict[str, Any]:
     """Tests whose journey field sessions take rarely or never: candidates to run less often.
 
+    Only tests whose every step was read as a field event are judged; the others are listed under
+    ``not_read`` with what to do, never as rarely taken (an unread step is no evidence of rarity).
+
     A test's journey is its mapped steps in order; a session takes it when it contains them with
     at most ``max_gap`` other events between consecutive steps (0: as one contiguous run). Tests
     taken by at most ``max_share`` of sessions are listed, rarest first, with the share of the
@@ -399,22 +402,38 @@ def unused_tests(
     taken = {runnable[n]: (int(sessions[n]), int(users[n])) for n in range(len(runnable))}
     step_total = sum(len(f) - 2 for f in tests.framed)
     rows = []
+    not_read = []
     for i, test_id in enumerate(tests.test_ids):
+        steps = len(tests.framed[i]) - 2
+        unknown = sum(1 for e in tests.framed[i] if e < 0)
+        if steps == 0 or unknown:
+            # A test the suite reader could not fully read is no evidence of a rare journey.
+            not_read.append(
+                {
+                    "test_id": test_id,
+                    "steps": steps,
+                    "unmapped_steps": unknown,
+                    "reason": (
+                        "no steps were read for it"
+                        if steps == 0
+                        else f"{unknown} of its {steps} steps match no field event"
+                    )
+                    + "; map them with --steps-map or --aliases (`gapfinder align` suggests events), or record "
+                    "a test run's telemetry with `gapfinder suite --events`",
+                }
+            )
+            continue
         count, people = taken.get(i, (0, 0))
         share = count / total if total else 0.0
         if share > max_share:
             continue
         held_back = 0 < people < min_users
-        steps = len(tests.framed[i]) - 2
-        unknown = sum(1 for e in tests.framed[i] if e < 0)
         if count == 0:
             reason = "no field session takes this journey"
         elif held_back:
             reason = f"fewer than {min_users} users take this journey (counts held back)"
         else:
             reason = f"{count:,} sessions ({100 * share:.2f} %) of {people:,} users take this journey"
-        if unknown:
-            reason += f"; {unknown} of its steps match no field event"
         rows.append(
             {
                 "test_id": test_id,
@@ -435,4 +454,5 @@ def unused_tests(
         "total_sessions": total,
         "tests": len(tests.test_ids),
         "unused": rows,
+        "not_read": not_read,
     }

@@ -26,7 +26,7 @@ from gapfinder.sql import run
 __all__ = ["DEFAULT_WORKSPACE", "SCHEMA_VERSION", "StageRecord", "Workspace", "connect_memory"]
 
 DEFAULT_WORKSPACE = "gapfinder.duckdb"
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2  # 2: suite_tests has outcome, left_out and tags
 
 
 def _configure(con: duckdb.DuckDBPyConnection, *, threads: int | None, memory_limit: str | None) -> None:
@@ -135,6 +135,10 @@ class Workspace:
         run(self.con, "create_run_sequence")
         run(self.con, "create_runs_table")
         run(self.con, "create_meta_table")
+        if self.has_table("suite_tests"):
+            columns = {r[0] for r in self.con.execute("DESCRIBE suite_tests").fetchall()}
+            if "left_out" not in columns:
+                run(self.con, "migrate_suite_tests_outcomes")
         run(self.con, "upsert_meta", key="schema_version", value=str(SCHEMA_VERSION))
 
     def close(self) -> None:

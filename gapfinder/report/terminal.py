@@ -206,16 +206,52 @@ def _opt_pct(x: float | None) -> str:
 
 
 def render_suite(summary: dict[str, Any], console: Console) -> None:
-    """What `gapfinder suite` stored: tests, how step names resolved, what matched nothing."""
+    """What `gapfinder suite` stored: tests with outcomes, how step names resolved, what matched nothing."""
     by = summary["steps_by_resolution"]
     console.print(
-        f"[bold {ACCENT}]Test suite[/] · {summary['test_count']} tests, {summary['step_count']} steps "
-        f"({', '.join(summary['kinds'])}) · workspace {summary['workspace']}"
+        f"[bold {ACCENT}]Test suite[/] · {summary['test_count']:,} tests ({summary['counted_test_count']:,} counted), "
+        f"{summary['step_count']:,} steps ({', '.join(summary['kinds'])}) · workspace {summary['workspace']}"
     )
-    console.print("step names resolved: " + ", ".join(f"{n} {how}" for how, n in sorted(by.items())))
-    tests = _table("Tests", ("test", "left"), ("kind", "left"), ("steps", "right"), ("unmapped", "right"))
-    for t in summary["tests"]:
-        tests.add_row(t["test_id"], t["kind"], str(t["steps"]), str(t["unmapped_steps"]) if t["unmapped_steps"] else "")
+    replaced = summary.get("replaced")
+    if replaced:
+        console.print(f"replaced the stored suite of {replaced['tests']:,} tests (pass --add to add sources instead)")
+    files = summary.get("files_read") or {}
+    if files or summary.get("files_ignored"):
+        console.print(
+            "files read: "
+            + (", ".join(f"{n:,} {kind}" for kind, n in sorted(files.items())) or "none")
+            + (f"; {summary['files_ignored']:,} other file(s) ignored" if summary.get("files_ignored") else "")
+        )
+    console.print(
+        f"steps: {summary['mapped_step_count']:,} mapped to field events, {summary['unmapped_step_count']:,} unmapped"
+        + (" (" + ", ".join(f"{n:,} {how}" for how, n in sorted(by.items())) + ")" if by else "")
+    )
+    for reason, n in sorted((summary.get("left_out") or {}).items()):
+        console.print(f"[yellow]not counted[/]: {n:,} test(s) {reason} (--count-all counts them)")
+    if summary.get("joined_results"):
+        console.print(f"{summary['joined_results']:,} scenario(s) took their outcome from a runner's report")
+    events = summary.get("events") or {}
+    if events:
+        console.print(
+            f"test-run telemetry: {events['attributed']:,} of {events['events']:,} events attributed to "
+            f"{events['tests']:,} test(s) by {'test id' if events['by'] == 'test_id' else 'time window'}"
+        )
+    tests = _table(
+        "Tests",
+        ("test", "left"),
+        ("kind", "left"),
+        ("outcome", "left"),
+        ("steps", "right"),
+        ("unmapped", "right"),
+    )
+    for t in summary["tests"][:200]:
+        outcome = t["outcome"] if t["counted"] else f"{t['outcome']} · not counted ({t['left_out']})"
+        tests.add_row(
+            t["test_id"], t["kind"], outcome, str(t["steps"]), str(t["unmapped_steps"]) if t["unmapped_steps"] else ""
+        )
+    if len(summary["tests"]) > 200:
+        tests.caption = f"the first 200 of {len(summary['tests']):,} tests; --format csv lists them all"
+        tests.caption_style = MUTED
     console.print(tests)
     if summary["unmapped_steps"]:
         unmapped = _table(
@@ -224,7 +260,7 @@ def render_suite(summary: dict[str, Any], console: Console) -> None:
             ("steps", "right"),
             ("tests", "right"),
         )
-        for r in summary["unmapped_steps"]:
+        for r in summary["unmapped_steps"][:50]:
             unmapped.add_row(r["step"], str(r["step_count"]), str(r["test_count"]))
         console.print(unmapped)
     for reason, n in sorted(summary["skipped"].items()):
@@ -260,6 +296,14 @@ def render_coverage(result: dict[str, Any], console: Console) -> None:
         f"[bold {ACCENT}]Coverage of real usage[/] · {result['test_count']} tests against "
         f"{result['sessions']:,} sessions · workspace {result['workspace']}"
     )
+    suite = result.get("suite") or {}
+    for reason, n in sorted((suite.get("left_out") or {}).items()):
+        console.print(f"[yellow]left out[/]: {n:,} test(s) {reason}; `gapfinder suite --count-all` counts them")
+    if suite.get("unmapped_step_count"):
+        console.print(
+            f"[yellow]unmapped[/]: {suite['unmapped_step_count']:,} of {suite['step_count']:,} test steps match "
+            "no field event and exercise nothing here; see `gapfinder align`, or record test-run telemetry (`suite --events`)"
+        )
     lenient = result["max_gap"] > 0
     columns = [("metric", "left"), ("exercised", "right"), ("of items", "right"), ("by occurrences", "right")]
     columns += [("by sessions", "right"), ("by users", "right")]
@@ -370,6 +414,21 @@ def render_unused(result: dict[str, Any], console: Console) -> None:
     table.caption = f"{len(result['unused'])} of {result['tests']} tests · candidates to run less often, not to delete"
     table.caption_style = MUTED
     console.print(table)
+    if result.get("not_read"):
+        unread = _table(
+            f"Tests not read ({len(result['not_read'])}): their journey is unknown, so they are not judged",
+            ("test", "left"),
+            ("steps", "right"),
+            ("unmapped", "right"),
+        )
+        for r in result["not_read"][:50]:
+            unread.add_row(r["test_id"], str(r["steps"]), str(r["unmapped_steps"]))
+        unread.caption = (
+            "map their steps with --steps-map or --aliases (`gapfinder align` suggests events), "
+            "or record a test run's telemetry with `gapfinder suite --events`"
+        )
+        unread.caption_style = MUTED
+        console.print(unread)
 
 
 def render_plan(result: dict[str, Any], console: Console) -> None:

@@ -202,12 +202,14 @@ def open_telemetry(
     *,
     ts_unit: str | None = None,
     ts_format: str | None = None,
+    extra_columns: Sequence[str] = (),
 ) -> OpenedSource:
     """Create the temporary view ``mapped_source`` over the telemetry with canonical columns.
 
     The view has ``user_id``, ``session_id``, ``event``, ``app_version``, ``platform`` and
     ``outcome`` as text (NULL when not mapped), ``ts`` as TIMESTAMPTZ in UTC (NULL when the raw
-    value is missing or cannot be read), ``has_raw_ts`` and ``is_naive_ts``.
+    value is missing or cannot be read), ``has_raw_ts`` and ``is_naive_ts``; and each of
+    ``extra_columns`` (such as ``test_id`` for test-run telemetry) as text, NULL when not mapped.
     """
     files = resolve_files(inputs)
     relation = open_relation(con, files)
@@ -218,7 +220,7 @@ def open_telemetry(
         raise InputError(f"{files.label}: cannot be read ({describe_database_error(exc)})") from None
     types = dict(zip(source_columns, source_types, strict=True))
     chosen = dict(mapping or {})
-    for canonical in CANONICAL_COLUMNS:
+    for canonical in (*CANONICAL_COLUMNS, *extra_columns):
         if canonical not in chosen and canonical in types:
             chosen[canonical] = canonical
     for canonical, source_name in chosen.items():
@@ -267,6 +269,9 @@ def open_telemetry(
             projections.append(ColumnExpression(chosen[canonical]).cast(T.VARCHAR).alias(canonical))
         else:
             projections.append(ConstantExpression(None).cast(T.VARCHAR).alias(canonical))
+    for extra in extra_columns:
+        source_expr = ColumnExpression(chosen[extra]).cast(T.VARCHAR) if extra in chosen else None
+        projections.append((source_expr or ConstantExpression(None).cast(T.VARCHAR)).alias(extra))
     # A registered relation is a temporary view: nothing pointing at the files is persisted.
     con.register("mapped_source", relation.select(*projections))
     return OpenedSource(

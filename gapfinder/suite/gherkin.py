@@ -1,21 +1,32 @@
 """Gherkin ``.feature`` files, parsed with the ``gherkin-official`` package.
 
 Each scenario becomes a test (Scenario Outlines are expanded, one test per Examples row, by the
-package's pickle compiler). A steps map turns step phrases into event names: a YAML file whose key
-``steps`` maps regular expressions (matched against the whole step text, case-insensitive) to an
-event name, or to null for steps that exercise no feature (``Given the app is open``)::
+package's pickle compiler); its id is the file's path relative to the folder given, ``::`` and the
+scenario's name, so same-named scenarios of two files never clash. A ``# encoding: latin-1``
+header before the first keyword is honoured; otherwise the file must be UTF-8.
 
-    steps:
-      "I search the catalogue( for .+)?": search_catalogue
-      "I pay the deposit by card": pay_deposit_card
-      "the app is open": null
+Step texts are turned into events in this order:
 
-A step no phrase matches keeps its text as the step name and is listed as unmatched, so that
-``gapfinder align`` can suggest an event for it.
+1. a steps map: a YAML file whose key ``steps`` maps regular expressions (matched against the whole
+   step text, case-insensitive, and then against its template) to an event name, or to null for
+   steps that exercise no feature::
+
+       steps:
+         "I search the catalogue( for .+)?": search_catalogue
+         'I follow "\\{\\}"': open_link          # the template of every `I follow "..."` step
+         "the app is open": null
+
+2. assertion steps (``Then`` and the ``And``/``But`` after it) exercise no feature and are left
+   out, unless a phrase maps them (or ``keep_assertions`` is set);
+3. any other step keeps its *template* as the step name: quoted values, numbers and
+   ``<placeholders>`` become ``{}`` (``I follow "Terms"`` → ``I follow "{}"``), so one alias maps
+   every variant; it is listed as unmatched for ``gapfinder align`` to suggest an event.
 """
 
 from __future__ import annotations
 
+import codecs
+import re
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -24,13 +35,44 @@ import regex
 
 from gapfinder.align import read_yaml_table
 from gapfinder.errors import ConfigError, InputError
-from gapfinder.safe_io import read_text
 from gapfinder.suite.model import ReaderReport, TestTrace
 
-__all__ = ["StepPhrases", "read_feature_file"]
+__all__ = ["StepPhrases", "read_feature_file", "step_template"]
 
 
 MATCH_SECONDS = 0.5
+_STEP_TYPES = {"Context": "context", "Action": "action", "Outcome": "assertion"}
+_ENCODING_HEADER = re.compile(rb"^\s*#\s*encoding\s*:\s*([A-Za-z0-9_.:-]+)\s*$", re.I)
+_TEMPLATE_PARTS = re.compile(
+    r'"[^"]*"'  # "double quoted"
+    r"|(?<![\w])'[^']*'(?![\w])"  # 'single quoted' (not the apostrophe of I'm)
+    r"|<[^<>\s][^<>]*>"  # <placeholder>
+    r"|(?<![\w.])[-+]?\d+(?:[.,:]\d+)*(?![\w])"  # 12, 3.50, 10:30, -4
+)
+
+
+def step_template(text: str) -> str:
+    """The step text with its values abstracted, so that one rule covers every variant.
+
+    Examples
+    --------
+    >>> step_template('I follow "Terms and conditions"')
+    'I follow "{}"'
+    >>> step_template("I add 3 tools to <basket>")
+    'I add {} tools to <{}>'
+    >>> step_template("I'm on the 'home' page")
+    "I'm on the '{}' page"
+    """
+
+    def replace(match: re.Match[str]) -> str:
+        value = match.group(0)
+        if value[0] in "\"'":
+            return f"{value[0]}{{}}{value[0]}"
+        if value[0] == "<":
+            return "<{}>"
+        return "{}"
+
+    return " ".join(_TEMPLATE_PARTS.sub(replace, text).split())
 
 
 @dataclass(frozen=True)
@@ -59,53 +101,127 @@ class StepPhrases:
 
     def event_for(self, text: str) -> tuple[bool, str | None]:
         """(matched, event): event None with matched True means the step is ignored on purpose."""
-        for pattern, event in self.rules:
-            try:
-                # The `regex` engine with a time bound: a phrase that backtracks catastrophically
-                # (such as "(a|aa)+$") stops with an error naming it instead of hanging the run.
-                if pattern.fullmatch(text.strip(), timeout=MATCH_SECONDS):
-                    return True, event
-            except TimeoutError:
-                raise ConfigError(
-                    f"--steps-map {self.source}: phrase {pattern.pattern!r} took over {MATCH_SECONDS} s on one step "
-                    "(it backtracks catastrophically); rewrite it without nested repetition"
-                ) from None
+        for candidate in dict.fromkeys((text.strip(), step_template(text))):
+            for pattern, event in self.rules:
+                try:
+                    # The `regex` engine with a time bound: a phrase that backtracks catastrophically
+                    # (such as "(a|aa)+$") stops with an error naming it instead of hanging the run.
+                    if pattern.fullmatch(candidate, timeout=MATCH_SECONDS):
+                        return True, event
+                except TimeoutError:
+                    raise ConfigError(
+                        f"--steps-map {self.source}: phrase {pattern.pattern!r} took over {MATCH_SECONDS} s on one "
+                        "step (it backtracks catastrophically); rewrite it without nested repetition"
+                    ) from None
         return False, None
 
 
-def read_feature_file(path: str | Path, phrases: StepPhrases | None = None) -> ReaderReport:
-    """Read one .feature file into one test per scenario (outline rows expanded)."""
+def _decode(path: Path) -> str:
+    """The file's text: the encoding a ``# encoding:`` header names, else UTF-8 (a BOM dropped)."""
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"{path}: the Gherkin file cannot be read ({exc.strerror or type(exc).__name__})") from None
+    encoding = "utf-8-sig"
+    for line in data.splitlines()[:20]:
+        if not line.strip():
+            continue
+        header = _ENCODING_HEADER.match(line)
+        if header:
+            name = header.group(1).decode("ascii")
+            try:
+                encoding = codecs.lookup(name).name
+            except LookupError:
+                raise InputError(f"{path}:1:1: unknown encoding {name!r} in the `# encoding:` header") from None
+            break
+        if not line.lstrip().startswith(b"#"):
+            break
+    try:
+        return data.decode(encoding)
+    except UnicodeDecodeError as exc:
+        line_no = data[: exc.start].count(b"\n") + 1
+        column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise InputError(
+            f"{path}:{line_no}:{column}: not {encoding.replace('-sig', '').upper()} text; save it as UTF-8 "
+            "or name its encoding in a first line `# encoding: NAME`"
+        ) from None
+
+
+def _parse_error(where: str, exc: Exception) -> InputError:
+    """One line naming the parser's first error with its line and column (and how many more there are)."""
+    errors = list(getattr(exc, "errors", None) or [exc])
+    first = errors[0]
+    location = getattr(first, "location", None) or {}
+    message = str(first)
+    message = re.sub(r"^\(\d+:\d+\):\s*", "", message).strip() or type(first).__name__
+    more = f" (and {len(errors) - 1} more)" if len(errors) > 1 else ""
+    return InputError(
+        f"{where}:{location.get('line', 1)}:{location.get('column') or 1}: not valid Gherkin: {message}{more}"
+    )
+
+
+def read_feature_file(
+    path: str | Path,
+    phrases: StepPhrases | None = None,
+    *,
+    label: str | None = None,
+    keep_assertions: bool = False,
+) -> ReaderReport:
+    """Read one .feature file into one test per scenario (outline rows expanded).
+
+    A file with no scenario (a feature being written, a background alone) is an error the caller
+    may skip; ``label`` is the name the tests' ids start with (default: the path)."""
     from gherkin.errors import CompositeParserException, ParserError
     from gherkin.parser import Parser
     from gherkin.pickles.compiler import Compiler
 
     where = str(path)
+    label = label or Path(path).as_posix()
+    text = _decode(Path(path))
     try:
-        document = Parser().parse(read_text(path, what="Gherkin file"))
+        document = Parser().parse(text)
     except (CompositeParserException, ParserError) as exc:
-        first = str(exc).strip().splitlines()[0]
-        raise InputError(f"{where}: not valid Gherkin ({first})") from None
-    document = {**document, "uri": where}  # type: ignore[typeddict-unknown-key]
+        raise _parse_error(where, exc) from None
+    document = {**document, "uri": label}  # type: ignore[typeddict-unknown-key]
     feature = (document.get("feature") or {}).get("name", "") or Path(path).stem
     phrases = phrases or StepPhrases()
     report = ReaderReport()
     counts: dict[str, int] = {}
     for pickle in Compiler().compile(document):  # type: ignore[arg-type]
         steps: list[str] = []
+        step_types: list[str] = []
         for step in pickle["steps"]:
-            text = step["text"].strip()
-            matched, event = phrases.event_for(text)
+            step_text = step["text"].strip()
+            step_type = _STEP_TYPES.get(str(step.get("type")), "action")
+            matched, event = phrases.event_for(step_text)
             if matched and event is None:
-                report.ignored_phrases[text] = report.ignored_phrases.get(text, 0) + 1
+                report.ignored_phrases[step_text] = report.ignored_phrases.get(step_text, 0) + 1
             elif matched and event is not None:
                 steps.append(event)
+                step_types.append(step_type)
+            elif step_type == "assertion" and not keep_assertions:
+                report.skip("assertion steps (Then …), which exercise no feature")
             else:
-                report.unmatched_phrases[text] = report.unmatched_phrases.get(text, 0) + 1
-                steps.append(text)
-        name = f"{feature}: {pickle['name']}"
+                template = step_template(step_text)
+                report.unmatched_phrases[template] = report.unmatched_phrases.get(template, 0) + 1
+                steps.append(template)
+                step_types.append(step_type)
+        name = str(pickle["name"]).strip() or "(unnamed scenario)"
         counts[name] = counts.get(name, 0) + 1
-        test_id = name if counts[name] == 1 else f"{name} #{counts[name]}"
-        report.traces.append(TestTrace(test_id, steps, where, "gherkin"))
+        local = name if counts[name] == 1 else f"{name} #{counts[name]}"
+        tags = tuple(str(t["name"]) for t in pickle.get("tags", []))
+        report.traces.append(
+            TestTrace(
+                f"{label}::{local}",
+                steps,
+                where,
+                "gherkin",
+                tags=tags,
+                feature=feature,
+                name=name,
+                step_types=step_types,
+            )
+        )
     if not report.traces:
-        raise InputError(f"{where}: the feature file holds no scenario")
+        raise InputError(f"{where}:1:1: the feature file holds no scenario")
     return report

@@ -1,15 +1,24 @@
-"""What every suite reader produces: a test and the ordered steps it exercises."""
+"""What every suite reader produces: a test, the ordered steps it exercises, and how it ended."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
-__all__ = ["ReaderReport", "TestTrace"]
+__all__ = ["OUTCOMES", "ReaderReport", "TestTrace"]
+
+# How a test ended. "unknown" is a test read from its text (Gherkin, a catalog) with no run result.
+OUTCOMES: tuple[str, ...] = ("passed", "failed", "skipped", "unknown")
 
 
 @dataclass
 class TestTrace:
-    """One test: its id, its steps in order (names as the suite spells them), and where it came from."""
+    """One test: its id, its steps in order (names as the suite spells them), and where it came from.
+
+    ``feature`` and ``name`` are the test's own names (a Gherkin feature and scenario, a JUnit
+    class and case) used to join a run's result to the test's text; ``started``/``finished`` are
+    epoch seconds when the source says when the test ran (its time window in test-run telemetry).
+    """
 
     __test__ = False  # not a pytest test class, despite the name
 
@@ -17,6 +26,15 @@ class TestTrace:
     steps: list[str]
     source: str
     kind: str
+    outcome: str = "unknown"
+    tags: tuple[str, ...] = ()
+    feature: str = ""
+    name: str = ""
+    started: float | None = None
+    finished: float | None = None
+    user_id: str | None = None  # the account the test acted as, to narrow its window (test accounts)
+    session_id: str | None = None
+    step_types: list[str] = field(default_factory=list)  # per step: "action", "assertion" or "context"
 
 
 @dataclass
@@ -27,6 +45,11 @@ class ReaderReport:
     skipped: dict[str, int] = field(default_factory=dict)  # reason -> count
     unmatched_phrases: dict[str, int] = field(default_factory=dict)  # Gherkin steps no phrase matched
     ignored_phrases: dict[str, int] = field(default_factory=dict)  # Gherkin steps mapped to nothing on purpose
+    problems: list[str] = field(default_factory=list)  # files skipped, one line each: "file:LINE:COL: reason"
+    files_read: dict[str, int] = field(default_factory=dict)  # kind -> files read
+    files_ignored: int = 0  # files in a folder that are no test source (fixtures, other data)
+    joined_results: int = 0  # Gherkin scenarios given a runner's result (JUnit, Cucumber)
+    events_reading: dict[str, Any] = field(default_factory=dict)  # test-run telemetry: what was attributed
 
     def skip(self, reason: str, count: int = 1) -> None:
         if count:
@@ -42,3 +65,4 @@ class ReaderReport:
         ):
             for phrase, n in theirs.items():
                 bucket[phrase] = bucket.get(phrase, 0) + n
+        self.problems.extend(other.problems)

@@ -523,123 +523,6 @@ def _render_paths(result: dict[str, Any], output_format: str) -> None:
 
 
 @cli.command()
-@click.argument("traces", nargs=-1, required=True)
-@workspace_option
-@click.option(
-    "--map",
-    "maps",
-    multiple=True,
-    metavar="CANONICAL=SOURCE",
-    help="For trace files: map test_id, step_no, ts or event to a source column; repeatable.",
-)
-@click.option(
-    "--steps-map",
-    type=click.Path(dir_okay=False),
-    help="For Gherkin: a YAML file mapping step phrases (regular expressions) to event names.",
-)
-@click.option(
-    "--aliases",
-    type=click.Path(dir_okay=False),
-    help="A YAML file mapping test step names to field event names (see `gapfinder align`).",
-)
-@click.option(
-    "--junit-property",
-    default="steps",
-    show_default=True,
-    help="For JUnit XML: the testcase property holding its steps as a JSON list.",
-)
-@output_options
-def suite(
-    traces: tuple[str, ...],
-    workspace: str,
-    maps: tuple[str, ...],
-    steps_map: str | None,
-    aliases: str | None,
-    junit_property: str,
-    output_format: str,
-) -> None:
-    """Read what the tests exercise and store it in the workspace.
-
-    TRACES are trace files (Parquet, CSV, NDJSON with test_id, step_no or ts, event), test
-    catalogs (.yaml), Gherkin .feature files, JUnit XML reports or OTLP/JSON traces, or folders of
-    them. Step names are matched to the field's event names; the ones that match none are listed.
-    """
-    from gapfinder.sources import parse_map_options
-    from gapfinder.suite import SuiteOptions, load_suite
-    from gapfinder.suite.traces import TRACE_COLUMNS
-    from gapfinder.workspace import Workspace
-
-    options = SuiteOptions(
-        mapping=parse_map_options(maps, allowed=TRACE_COLUMNS),
-        steps_map=steps_map,
-        aliases=aliases,
-        junit_property=junit_property,
-    )
-    with Workspace(workspace, read_only=not os.path.exists(workspace)) as ws:
-        summary = load_suite(ws, traces, options)
-    _emit_result(
-        summary,
-        output_format,
-        table="render_suite",
-        header=["test_id", "kind", "source", "steps", "unmapped_steps"],
-        rows=lambda: [
-            (t["test_id"], t["kind"], t["source"], t["steps"], t["unmapped_steps"]) for t in summary["tests"]
-        ],
-    )
-
-
-@cli.command()
-@workspace_option
-@click.option(
-    "--write",
-    "write_to",
-    type=click.Path(dir_okay=False),
-    help="Write the suggestions as an alias file to review and pass to `gapfinder suite --aliases`.",
-)
-@click.option(
-    "--min-score",
-    default=0.25,
-    show_default=True,
-    type=FiniteFloat(0, 1),
-    help="Suggest nothing below this similarity.",
-)
-@click.option("--aliases", type=click.Path(dir_okay=False), help="An alias file whose entries are kept when writing.")
-@min_users_option("field events")
-@output_options
-def align(
-    workspace: str, write_to: str | None, min_score: float, aliases: str | None, min_users: int, output_format: str
-) -> None:
-    """Suggest field event names for test steps that match none.
-
-    Compares the stored suite's unmapped step names with the field's event names (TF-IDF over
-    character n-grams, cosine similarity, one-to-one assignment) and shows each suggestion with
-    its score. `--write` saves them as an alias file for a person to review.
-    """
-    from gapfinder.align import load_aliases as read_aliases
-    from gapfinder.align import suggest_for_workspace, write_aliases
-    from gapfinder.workspace import Workspace
-
-    with Workspace(workspace, read_only=True) as ws:
-        result = suggest_for_workspace(ws, min_score=min_score, min_users=min_users)
-    if write_to:
-        from gapfinder.align import Suggestion
-
-        existing = read_aliases(aliases) if aliases else None
-        suggestions = [Suggestion(r["step"], r["event"], r["score"]) for r in result["suggestions"]]
-        write_aliases(write_to, suggestions, existing=existing)
-        click.echo(
-            f"wrote {len(result['suggestions'])} suggestion(s) to {write_to}: review it, then pass --aliases", err=True
-        )
-    _emit_result(
-        result,
-        output_format,
-        table="render_alignment",
-        header=["step", "event", "score"],
-        rows=lambda: [(r["step"], r["event"], r["score"]) for r in result["suggestions"]],
-    )
-
-
-@cli.command()
 @workspace_option
 @click.option(
     "--max-gap",
@@ -1116,6 +999,10 @@ def _render_summary(summary: dict[str, Any], output_format: str) -> None:
         from gapfinder.quoting import terminal_safe
 
         render_profile(terminal_safe(summary), _stdout_console())
+
+
+# Command groups in their own modules register themselves on `cli` when imported.
+from gapfinder.cli import suite_commands  # noqa: E402, F401
 
 
 def main() -> None:
