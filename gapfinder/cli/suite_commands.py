@@ -55,8 +55,8 @@ def suite_options(func: F) -> F:
             "--tags",
             default=None,
             metavar="EXPRESSION",
-            help="Cucumber tag expression a test's tags must satisfy to count, e.g. \"not @wip and not @slow\" "
-            "(default: not @wip, @ignore, @skip, @manual, @pending or @disabled; \"\" counts every tag).",
+            help='Cucumber tag expression a test\'s tags must satisfy to count, e.g. "not @wip and not @slow" '
+            '(default: not @wip, @ignore, @skip, @manual, @pending or @disabled; "" counts every tag).',
         ),
         click.option(
             "--count-all",

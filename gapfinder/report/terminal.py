@@ -302,7 +302,8 @@ def render_coverage(result: dict[str, Any], console: Console) -> None:
     if suite.get("unmapped_step_count"):
         console.print(
             f"[yellow]unmapped[/]: {suite['unmapped_step_count']:,} of {suite['step_count']:,} test steps match "
-            "no field event and exercise nothing here; see `gapfinder align`, or record test-run telemetry (`suite --events`)"
+            "no field event and exercise nothing here; see `gapfinder align`, or record test-run telemetry "
+            "(`suite --events`)"
         )
     lenient = result["max_gap"] > 0
     columns = [("metric", "left"), ("exercised", "right"), ("of items", "right"), ("by occurrences", "right")]
