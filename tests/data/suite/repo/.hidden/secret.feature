@@ -1,0 +1,3 @@
+Feature: hidden
+  Scenario: hidden
+    Given hidden

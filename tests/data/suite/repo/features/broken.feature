@@ -1,0 +1,5 @@
+Feature: Broken
+  Scenario: one
+    Given a step
+    | a | b |
+    | 1 |

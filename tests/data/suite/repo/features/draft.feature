@@ -1,0 +1,2 @@
+Feature: Returns (being written)
+  Returning a tool will be described here.

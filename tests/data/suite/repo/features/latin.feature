@@ -1,0 +1,4 @@
+# encoding: iso-8859-1
+Feature: Latin declared
+  Scenario: café
+    Given I order a café

@@ -1,0 +1,3 @@
+Feature: Latin
+  Scenario: café
+    Given I order a café
