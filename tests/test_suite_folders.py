@@ -45,7 +45,7 @@ def test_a_repository_folder_reads_what_it_can_and_names_what_it_skips() -> None
 
 
 def test_strict_fails_on_the_first_unreadable_file() -> None:
-    with pytest.raises(InputError, match="broken.feature:5:5"):
+    with pytest.raises(InputError, match=r"broken\.feature:5:5"):
         read_suite([REPO], SuiteOptions(strict=True))
 
 

@@ -12,6 +12,7 @@ Sources:
 
 from __future__ import annotations
 
+import itertools
 import subprocess
 import sys
 from pathlib import Path
@@ -96,7 +97,7 @@ def test_pytest_junitxml_outcomes_and_windows(tmp_path: Path, family: str) -> No
     assert passes.finished - passes.started >= 0.05
     # cases run one after another: each window starts where the previous one ended
     ordered = sorted(traces.values(), key=lambda t: t.started or 0)
-    for before, after in zip(ordered, ordered[1:], strict=False):
+    for before, after in itertools.pairwise(ordered):
         assert after.started == pytest.approx(before.finished)
 
 

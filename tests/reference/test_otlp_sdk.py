@@ -33,9 +33,8 @@ def _spans() -> list[object]:
     with tracer.start_as_current_span("test_reserve", attributes={"test.case.name": "test_reserve"}):
         with tracer.start_as_current_span("login"):
             pass
-        with tracer.start_as_current_span("reserve_tool"):
-            with tracer.start_as_current_span("check_stock"):
-                pass
+        with tracer.start_as_current_span("reserve_tool"), tracer.start_as_current_span("check_stock"):
+            pass
     with tracer.start_as_current_span("test_pay", attributes={"test.case.name": "test_pay"}) as span:
         with tracer.start_as_current_span("pay_deposit_card"):
             pass
