@@ -16,7 +16,7 @@ from __future__ import annotations
 import itertools
 import json
 import os
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -209,6 +209,7 @@ class DemoResult:
     event_count: int
     session_count: int
     user_count: int
+    staging_files: list[Path] = field(default_factory=list)
 
 
 def _expected_length(journey: Journey) -> float:
@@ -346,6 +347,7 @@ def generate_demo(
 
     field_files = _write_field(field_dir, columns)
     suite_file = _write_suite(target / "tests")
+    staging_files = _write_staging_run(target / "staging_run")
     manifest = {
         "scenario": "community tool library (invented)",
         "seed": seed,
@@ -377,6 +379,12 @@ def generate_demo(
         },
         "segment_effect": SEGMENT_ERROR,
         "error_rates": {"base": BASE_ERROR_RATE, **ERROR_RATES},
+        "staging_run": {
+            "events": "staging_run/events.parquet",
+            "windows": "staging_run/pytest_run.ndjson",
+            "test_module": STAGING_MODULE,
+            "same_steps_as": "tests/suite_traces.csv",
+        },
     }
     manifest_file = target / "manifest.json"
     manifest_file.write_text(json.dumps(manifest, indent=2, sort_keys=True) + "\n", encoding="utf-8")
@@ -385,6 +393,7 @@ def generate_demo(
         field_files=field_files,
         suite_file=suite_file,
         manifest_file=manifest_file,
+        staging_files=staging_files,
         event_count=len(columns["event"]),
         session_count=session_count + len(bot_starts),
         user_count=user_count + 1,
@@ -421,6 +430,58 @@ def _write_field(field_dir: Path, columns: dict[str, Any]) -> list[Path]:
         pq.write_table(table, path, compression="zstd", row_group_size=1_000_000)
         written.append(path)
     return written
+
+
+STAGING_MODULE = "tests/test_library.py"
+STAGING_START = np.datetime64("2026-07-01T09:00:00", "us")
+
+
+def _write_staging_run(folder: Path) -> list[Path]:
+    """The demo suite run against a staging build with telemetry on.
+
+    The app emits its usual events (under a test account per test) while each test runs; the
+    pytest plugin's run file records each test's window and outcome but no steps, as a suite that
+    never calls ``record_step`` would. ``gapfinder suite pytest_run.ndjson --events events.parquet``
+    then gives every test the steps of ``tests/suite_traces.csv``. Test accounts are invented."""
+    folder.mkdir(parents=True, exist_ok=True)
+    users, stamps, events, lines = [], [], [], []
+    lines.append(json.dumps({"gapfinder_run": 1, "tests": len(SUITE), "writer": "gapfinder demo"}, sort_keys=True))
+    clock = STAGING_START
+    for n, (test, steps) in enumerate(SUITE, start=1):
+        started = clock
+        for step in steps:
+            clock = clock + np.timedelta64(400, "ms")
+            users.append(f"qa-{n:02d}")
+            stamps.append(clock)
+            events.append(step)
+        clock = clock + np.timedelta64(300, "ms")
+        epoch = np.datetime64("1970-01-01T00:00:00", "us")
+        window = {
+            "test_id": f"{STAGING_MODULE}::{test}",
+            "outcome": "passed",
+            "started": float((started - epoch) / np.timedelta64(1, "s")),
+            "finished": float((clock - epoch) / np.timedelta64(1, "s")),
+            "steps": [],
+            "user_id": None,
+            "session_id": None,
+        }
+        lines.append(json.dumps(window, sort_keys=True))
+        clock = clock + np.timedelta64(2, "s")  # set-up of the next test: the app is idle
+    table = pa.table(
+        {
+            "user_id": pa.array(users),
+            "ts": pa.array(np.array(stamps, dtype="datetime64[us]"), type=pa.timestamp("us", tz="UTC")),
+            "event": pa.array(events),
+            "app_version": pa.array(["5.0-staging"] * len(events)),
+            "platform": pa.array(["web"] * len(events)),
+            "outcome": pa.array(["ok"] * len(events)),
+        }
+    )
+    events_path = folder / "events.parquet"
+    pq.write_table(table, events_path, compression="zstd")
+    run_path = folder / "pytest_run.ndjson"
+    run_path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return [events_path, run_path]
 
 
 def _write_suite(folder: Path) -> Path:

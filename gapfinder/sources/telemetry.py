@@ -270,8 +270,10 @@ def open_telemetry(
         else:
             projections.append(ConstantExpression(None).cast(T.VARCHAR).alias(canonical))
     for extra in extra_columns:
-        source_expr = ColumnExpression(chosen[extra]).cast(T.VARCHAR) if extra in chosen else None
-        projections.append((source_expr or ConstantExpression(None).cast(T.VARCHAR)).alias(extra))
+        if extra in chosen:
+            projections.append(ColumnExpression(chosen[extra]).cast(T.VARCHAR).alias(extra))
+        else:
+            projections.append(ConstantExpression(None).cast(T.VARCHAR).alias(extra))
     # A registered relation is a temporary view: nothing pointing at the files is persisted.
     con.register("mapped_source", relation.select(*projections))
     return OpenedSource(
