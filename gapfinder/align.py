@@ -1,27 +1,27 @@
 """Test step names ↔ field event names: exact, normalized, alias file, and learned suggestions.
 
 Suites rarely spell features the way telemetry does (``Search Catalogue`` vs ``search_catalogue``,
-``payDepositByCard`` vs ``pay_deposit_card``). A step name is resolved, in order, by an exact
-match, a match after normalization (lower case, camelCase split, punctuation as ``_``), or the
-alias file. What remains is left unmapped and listed; ``NameAligner`` suggests an event for each,
-from TF-IDF vectors over character n-grams (scikit-learn) compared by cosine similarity, with a
-one-to-one assignment of steps to events (SciPy's ``linear_sum_assignment``, the Hungarian
-method), and writes an alias file for a person to review.
-
-References
-----------
-Kuhn, H. W. (1955). "The Hungarian method for the assignment problem". Naval Research Logistics
-Quarterly 2, 83–97.
+``payDepositByCard`` vs ``pay_deposit_card``, ``I sign in as "{}"`` vs ``login``). A step name is
+resolved, in order, by an exact match, the alias file, or a match after normalization (Unicode
+case folding, camelCase split, common UI phrasings reduced to one word: ``sign in``/``log in`` →
+``login``, ``create account``/``register`` → ``signup``). What remains is left unmapped and listed;
+``NameAligner`` suggests events for each: it scores every (step, event) pair by the cosine
+similarity of TF-IDF vectors over word stems and over character n-grams (scikit-learn), averaged;
+a pair whose words are opposites (in/out, open/close, add/remove, create/delete, join/leave, …) or
+where the step cancels or undoes something the event does not, scores 0. Each step gets its best
+three candidates with their scores; many steps may map to one event. A person reviews the alias
+file it writes.
 """
 
 from __future__ import annotations
 
-import re
+import unicodedata
 from collections.abc import Iterable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+import regex
 import yaml
 
 from gapfinder.errors import ConfigError
@@ -31,6 +31,7 @@ from gapfinder.safe_io import read_text, write_text
 __all__ = [
     "NameAligner",
     "Suggestion",
+    "canonical_words",
     "load_aliases",
     "normalize_name",
     "read_yaml_table",
@@ -39,9 +40,81 @@ __all__ = [
     "write_aliases",
 ]
 
+_CAMEL = regex.compile(r"(?<=[\p{Ll}\p{Nd}])(?=\p{Lu})")
+_NOT_WORD = regex.compile(r"[^\p{L}\p{M}\p{N}]+")
+# Common UI phrasings reduced to one word, applied to step texts and event names alike (common practice
+# of UI wording in English; the list is ours).
+_PHRASES: tuple[tuple[Any, str], ...] = tuple(
+    # each pattern matches whole words of a normalized name ("i_sign_in_as"): (?<![^_]) is a word start
+    (regex.compile("(?<![^_])" + pattern + "(?![^_])"), word)
+    for pattern, word in (
+        (r"(?:sign|log|logs|signs|signed|logged|signing|logging)_?(?:in|on)", "login"),
+        (r"(?:sign|log|logs|signs|signed|logged|signing|logging)_?(?:out|off)", "logout"),
+        (r"(?:sign|signs|signed|signing)_?up", "signup"),
+        (r"(?:register|registers|registered|registering|registration)", "signup"),
+        (r"(?:create|creates|created|creating|open|opens|opening)_(?:an_|a_new_|a_|my_|new_)?account", "signup"),
+        (r"signup_(?:an_|a_new_|a_|my_|new_)?account", "signup"),
+        (r"(?:close|closes|closed|closing|remove|removes|removed)_(?:my_|the_|an_|a_)?account", "delete_account"),
+        (r"(?:remove|removes|removed|removing)", "delete"),
+        (r"(?:look|looks|looking)_up", "search"),
+        (r"(?:look|looks|looking)_at", "view"),
+        (r"(?:open|opens|opening)_(?:the_|a_|my_)?(\w+)_(?:page|details|screen)", r"view_\1"),
+        (r"(?:pick|picks|picked|picking)_up", "collect"),
+        (r"(?:bring|brings|brought|bringing)_(?:[^_]+_){0,3}back", "return"),
+        (r"(?:book|books|booked|booking)", "reserve"),
+        (r"(?:renew|renews|renewed|renewing)", "extend"),
+        (r"waiting_list", "waitlist"),
+    )
+)
+_STOP_WORDS = frozenset(
+    "a an the i me my we our you your he she it its they their is am are was were be been being to of for "
+    "on in at by with from as and or this that these those some any all new user member visitor".split()
+)
+_OPPOSITES: tuple[tuple[str, str], ...] = (
+    ("in", "out"),
+    ("up", "down"),
+    ("open", "close"),
+    ("add", "remove"),
+    ("create", "delete"),
+    ("enable", "disable"),
+    ("login", "logout"),
+    ("show", "hide"),
+    ("lock", "unlock"),
+    ("start", "stop"),
+    ("on", "off"),
+    ("join", "leave"),
+    ("subscribe", "unsubscribe"),
+    ("follow", "unfollow"),
+    ("connect", "disconnect"),
+    ("install", "uninstall"),
+    ("accept", "decline"),
+    ("approve", "reject"),
+    ("increase", "decrease"),
+    ("upload", "download"),
+    ("expand", "collapse"),
+    ("mute", "unmute"),
+    ("pin", "unpin"),
+    ("like", "unlike"),
+    ("import", "export"),
+    ("archive", "unarchive"),
+    ("signup", "delete"),
+)
+# A step that undoes or removes something matches only an event that does the same.
+_UNDOING = frozenset(
+    {"cancel", "undo", "revoke", "unsubscribe", "withdraw", "abort", "disable", "delete", "close", "leave", "decline"}
+)
+
+
+def _stem(word: str) -> str:
+    """A light suffix strip so that reserve, reserves, reserved, reserving and reservation meet."""
+    for suffix in ("ations", "ation", "ings", "ing", "ers", "er", "ed", "es", "s", "e"):
+        if len(word) > len(suffix) + 2 and word.endswith(suffix):
+            return word[: -len(suffix)]
+    return word
+
 
 def normalize_name(name: str) -> str:
-    """Lower case, camelCase split, runs of anything but letters and digits as one ``_``.
+    """Unicode case folding, camelCase split, runs of anything but letters and digits as one ``_``.
 
     Examples
     --------
@@ -49,9 +122,37 @@ def normalize_name(name: str) -> str:
     'search_catalogue'
     >>> normalize_name("payDepositByCard")
     'pay_deposit_by_card'
+    >>> normalize_name("Suche öffnen")
+    'suche_öffnen'
     """
-    spaced = re.sub(r"(?<=[a-z0-9])(?=[A-Z])", "_", name.strip())
-    return re.sub(r"[^0-9a-z]+", "_", spaced.lower()).strip("_")
+    text = unicodedata.normalize("NFKC", name.strip())
+    spaced = _CAMEL.sub("_", text)
+    return _NOT_WORD.sub("_", spaced.casefold()).strip("_")
+
+
+def canonical_words(name: str) -> list[str]:
+    """The name's words after normalization and the UI phrasings, stop words dropped.
+
+    Examples
+    --------
+    >>> canonical_words('I sign in as "{}"')
+    ['login']
+    >>> canonical_words("createAccount")
+    ['signup']
+    """
+    text = normalize_name(name)
+    for pattern, word in _PHRASES:
+        text = pattern.sub(word, text)
+    return [w for w in text.split("_") if w and w not in _STOP_WORDS]
+
+
+def _opposed(step_words: set[str], event_words: set[str]) -> bool:
+    for a, b in _OPPOSITES:
+        if (a in step_words and b in event_words and a not in event_words) or (
+            b in step_words and a in event_words and b not in event_words
+        ):
+            return True
+    return bool((step_words & _UNDOING) - event_words)
 
 
 def read_yaml_table(path: str | Path, *, key: str, option: str, what: str) -> dict[Any, Any]:
@@ -89,6 +190,9 @@ def resolve_step_names(
     by_normal: dict[str, str] = {}
     for event in sorted(events):
         by_normal.setdefault(normalize_name(event), event)
+    by_words: dict[tuple[str, ...], str] = {}
+    for event in sorted(events):
+        by_words.setdefault(tuple(canonical_words(event)), event)
     aliases = aliases or {}
     resolved: dict[str, tuple[str | None, str]] = {}
     for step in steps:
@@ -100,6 +204,8 @@ def resolve_step_names(
             resolved[step] = (aliases[step], "alias")
         elif normalize_name(step) in by_normal:
             resolved[step] = (by_normal[normalize_name(step)], "normalized")
+        elif tuple(canonical_words(step)) in by_words and canonical_words(step):
+            resolved[step] = (by_words[tuple(canonical_words(step))], "normalized")
         else:
             resolved[step] = (None, "unmapped")
     return resolved
@@ -107,11 +213,13 @@ def resolve_step_names(
 
 @dataclass(frozen=True)
 class Suggestion:
-    """A proposed alias: the suite's step name, the field event and the cosine similarity."""
+    """A proposed alias: the suite's step name, the best field event (None under the threshold), its
+    similarity, and the best candidates with their true scores."""
 
     step: str
     event: str | None
     score: float
+    candidates: tuple[tuple[str, float], ...] = field(default=())
 
 
 class NameAligner:
@@ -122,18 +230,33 @@ class NameAligner:
     ngram_range:
         Character n-gram lengths of the TF-IDF vectors (``char_wb``: n-grams inside words).
     min_score:
-        Suggestions under this cosine similarity are returned with ``event=None``.
+        Suggestions under this similarity are returned with ``event=None`` (their candidates stay).
+    word_weight:
+        Weight of the word-stem similarity in the score; the character similarity gets the rest.
+    candidates:
+        How many candidates each suggestion lists.
 
     Examples
     --------
-    >>> aligner = NameAligner().fit(["search_catalogue", "view_tool", "extend_loan"])
-    >>> [(s.step, s.event) for s in aligner.suggest(["Search the catalog", "extend my loan"])]
-    [('Search the catalog', 'search_catalogue'), ('extend my loan', 'extend_loan')]
+    >>> aligner = NameAligner().fit(["search_catalogue", "view_tool", "extend_loan", "login", "sign_up"])
+    >>> [(s.step, s.event) for s in aligner.suggest(["Search the catalog", "extend my loan", "I sign in as {}"])]
+    [('Search the catalog', 'search_catalogue'), ('extend my loan', 'extend_loan'), ('I sign in as {}', 'login')]
+    >>> aligner.suggest(["I sign out"])[0].event is None
+    True
     """
 
-    def __init__(self, *, ngram_range: tuple[int, int] = (2, 4), min_score: float = 0.25) -> None:
+    def __init__(
+        self,
+        *,
+        ngram_range: tuple[int, int] = (2, 4),
+        min_score: float = 0.3,
+        word_weight: float = 0.6,
+        candidates: int = 3,
+    ) -> None:
         self.ngram_range = ngram_range
         self.min_score = min_score
+        self.word_weight = word_weight
+        self.candidates = candidates
 
     def fit(self, events: Sequence[str]) -> NameAligner:
         from sklearn.feature_extraction.text import TfidfVectorizer
@@ -143,41 +266,61 @@ class NameAligner:
             raise ValueError(f"ngram_range {self.ngram_range}: give (low, high) with 1 <= low <= high")
         if not 0.0 <= self.min_score <= 1.0:
             raise ValueError(f"min_score {self.min_score}: give a value in [0, 1]")
+        if not 0.0 <= self.word_weight <= 1.0:
+            raise ValueError(f"word_weight {self.word_weight}: give a value in [0, 1]")
+        if self.candidates < 1:
+            raise ValueError(f"candidates {self.candidates}: give at least 1")
         if not events:
             raise ValueError("fit needs at least one event name")
         self.events_ = list(events)
-        self.vectorizer_ = TfidfVectorizer(analyzer="char_wb", ngram_range=self.ngram_range, lowercase=True)
-        self.matrix_ = self.vectorizer_.fit_transform([_words(e) for e in self.events_])
+        self.event_words_ = [set(canonical_words(e)) for e in self.events_]
+        self.char_vectorizer_ = TfidfVectorizer(analyzer="char_wb", ngram_range=self.ngram_range, lowercase=False)
+        self.char_matrix_ = self.char_vectorizer_.fit_transform([_spaced(e) for e in self.events_])
+        self.word_vectorizer_ = TfidfVectorizer(analyzer=_stems, lowercase=False)
+        self.word_matrix_ = self.word_vectorizer_.fit_transform(self.events_)
         return self
 
     def similarity(self, steps: Sequence[str]) -> Any:
-        """Cosine similarity of each step (rows) to each fitted event (columns)."""
-        if not hasattr(self, "matrix_"):
+        """Score of each step (rows) against each fitted event (columns), 0 for opposite meanings."""
+        import numpy as np
+
+        if not hasattr(self, "char_matrix_"):
             raise ValueError("call fit(events) before suggest or similarity")
-        vectors = self.vectorizer_.transform([_words(s) for s in steps])
-        return (vectors @ self.matrix_.T).toarray()  # rows are L2-normalized: the product is the cosine
+        chars = (self.char_vectorizer_.transform([_spaced(s) for s in steps]) @ self.char_matrix_.T).toarray()
+        words = (self.word_vectorizer_.transform(list(steps)) @ self.word_matrix_.T).toarray()
+        scores = self.word_weight * words + (1 - self.word_weight) * chars
+        for i, step in enumerate(steps):
+            step_words = set(canonical_words(step))
+            for j, event_words in enumerate(self.event_words_):
+                if _opposed(step_words, event_words):
+                    scores[i, j] = 0.0
+        return np.clip(scores, 0.0, 1.0)
 
     def suggest(self, steps: Sequence[str]) -> list[Suggestion]:
-        """One suggestion per step, in the given order; each event is suggested at most once."""
-        from scipy.optimize import linear_sum_assignment
+        """One suggestion per step, in the given order, each with its best candidates."""
+        import numpy as np
 
         steps = list(steps)
         if not steps:
             return []
         scores = self.similarity(steps)
-        rows, cols = linear_sum_assignment(-scores)
-        chosen = {int(r): int(c) for r, c in zip(rows, cols, strict=True)}
         out = []
         for i, step in enumerate(steps):
-            j = chosen.get(i)
-            score = float(scores[i, j]) if j is not None else 0.0
-            event = self.events_[j] if j is not None and score >= self.min_score else None
-            out.append(Suggestion(step, event, round(score, 4)))
+            order = sorted(range(len(self.events_)), key=lambda j: (-scores[i, j], self.events_[j]))
+            best = [(self.events_[j], round(float(scores[i, j]), 4)) for j in order[: self.candidates]]
+            best = [(e, v) for e, v in best if v > 0]
+            top = best[0] if best else (None, 0.0)
+            chosen = top[0] if top[1] >= self.min_score else None
+            out.append(Suggestion(step, chosen, float(np.round(top[1], 4)), tuple(best)))
         return out
 
 
-def _words(name: str) -> str:
-    return normalize_name(name).replace("_", " ")
+def _spaced(name: str) -> str:
+    return " ".join(canonical_words(name))
+
+
+def _stems(name: str) -> list[str]:
+    return [_stem(w) for w in canonical_words(name)]
 
 
 def write_aliases(
@@ -201,7 +344,7 @@ def write_aliases(
     write_text(path, text, option="--write")
 
 
-def suggest_for_workspace(ws: Any, *, min_score: float = 0.25, min_users: int = 5) -> dict[str, Any]:
+def suggest_for_workspace(ws: Any, *, min_score: float = 0.3, min_users: int = 5) -> dict[str, Any]:
     """Suggestions for the stored suite's unmapped step names against the workspace's events.
 
     Only events taken by at least ``min_users`` distinct users are suggested: a rarer event's name
@@ -212,7 +355,9 @@ def suggest_for_workspace(ws: Any, *, min_score: float = 0.25, min_users: int = 
     unmapped = fetch_dicts(ws.con, "list_unmapped_steps")
     events = [r["event"] for r in fetch_dicts(ws.con, "list_field_events", min_users=min_users)]
     suggestions = (
-        NameAligner(min_score=min_score).fit(events).suggest([r["step"] for r in unmapped]) if unmapped else []
+        NameAligner(min_score=min_score).fit(events).suggest([r["step"] for r in unmapped])
+        if unmapped and events
+        else []
     )
     uses = {r["step"]: r for r in unmapped}
     return {
@@ -223,6 +368,7 @@ def suggest_for_workspace(ws: Any, *, min_score: float = 0.25, min_users: int = 
                 "step": s.step,
                 "event": s.event,
                 "score": s.score,
+                "candidates": [{"event": e, "score": v} for e, v in s.candidates],
                 "steps": uses[s.step]["step_count"],
                 "tests": uses[s.step]["test_count"],
             }

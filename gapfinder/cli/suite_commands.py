@@ -189,7 +189,7 @@ def suite(
 )
 @click.option(
     "--min-score",
-    default=0.25,
+    default=0.3,
     show_default=True,
     type=FiniteFloat(0, 1),
     help="Suggest nothing below this similarity.",

@@ -270,17 +270,23 @@ def render_suite(summary: dict[str, Any], console: Console) -> None:
 
 
 def render_alignment(result: dict[str, Any], console: Console) -> None:
-    """Suggested aliases with their similarity."""
+    """Suggested aliases with their similarity and the next candidates."""
     table = _table(
         f"Suggested events for {result['unmapped']} unmapped step name(s)",
         ("step", "left"),
         ("suggested event", "left"),
         ("similarity", "right"),
+        ("next candidates", "left"),
         ("used in tests", "right"),
     )
     for r in result["suggestions"]:
+        others = [c for c in r.get("candidates", []) if c["event"] != r["event"]][:2]
         table.add_row(
-            r["step"], r["event"] or f"[{MUTED}]none above the threshold[/]", f"{r['score']:.2f}", str(r["tests"])
+            r["step"],
+            r["event"] or f"[{MUTED}]none above the threshold[/]",
+            f"{r['score']:.2f}",
+            ", ".join(f"{c['event']} {c['score']:.2f}" for c in others),
+            str(r["tests"]),
         )
     table.caption = (
         "review before use: `gapfinder align --write aliases.yaml`, edit it, "

@@ -50,14 +50,25 @@ def test_coverage_and_unused(ws: str) -> None:
 
 
 def test_align_suggests_and_writes_aliases(ws: str, tmp_path: Path) -> None:
-    assert invoke("suite", str(DATA / "catalog.yaml"), "-w", ws).exit_code == 0
+    catalog = tmp_path / "catalog.yaml"
+    catalog.write_text(
+        "tests:\n"
+        "  - {id: t1, steps: [login, Open Notifications, extending loans]}\n"
+        "  - {id: t2, steps: ['I sign in as \"{}\"', I log out]}\n"
+    )
+    stored = invoke("suite", str(catalog), "-w", ws, "--format", "json")
+    assert stored.exit_code == 0, stored.output
+    # "Open Notifications" and the sign-in phrasing resolve by normalization, with no alias
+    assert {r["step"] for r in json.loads(stored.stdout)["unmapped_steps"]} == {"extending loans", "I log out"}
     aliases = tmp_path / "aliases.yaml"
     result = invoke("align", "-w", ws, "--write", str(aliases), "--format", "json")
     assert result.exit_code == 0, result.output
-    suggested = {r["step"]: r["event"] for r in json.loads(result.stdout)["suggestions"]}
-    assert suggested == {"extend my loan": "extend_loan"}  # "Open Notifications" resolved by normalization
-    again = invoke("suite", str(DATA / "catalog.yaml"), "-w", ws, "--aliases", str(aliases), "--format", "json")
-    assert json.loads(again.stdout)["unmapped_steps"] == []
+    rows = {r["step"]: r for r in json.loads(result.stdout)["suggestions"]}
+    assert rows["extending loans"]["event"] == "extend_loan"
+    assert rows["I log out"]["event"] is None  # the field has no sign-out event, and login is its opposite
+    assert all(c["event"] != "login" for c in rows["I log out"]["candidates"])
+    again = invoke("suite", str(catalog), "-w", ws, "--aliases", str(aliases), "--format", "json")
+    assert [r["step"] for r in json.loads(again.stdout)["unmapped_steps"]] == ["I log out"]
 
 
 @pytest.mark.parametrize(
