@@ -57,7 +57,8 @@ def main() -> None:
     events: list[str] = data["events"]
     labels: dict[str, str | None] = data["phrasings"]
     steps = list(labels)
-    print(f"{len(steps)} phrasings ({sum(v is None for v in labels.values())} with no fitting event), {len(events)} events")
+    nulls = sum(v is None for v in labels.values())
+    print(f"{len(steps)} phrasings ({nulls} with no fitting event), {len(events)} events")
     started = time.perf_counter()
     suggestions = NameAligner(min_score=0.0).fit(events).suggest(steps)
     elapsed = time.perf_counter() - started
