@@ -43,6 +43,8 @@ __all__ = [
     "load_test_paths",
     "occurs_in",
     "pack_code",
+    "planned_and_done",
+    "suite_reading",
 ]
 
 METRICS = ("features", "transitions", "kpaths", "patterns")
@@ -356,7 +358,37 @@ def coverage_report(ws: Workspace, *, max_gap: int = 0, min_users: int = DEFAULT
     totals = fetch_dicts(ws.con, "summarize_sessions")[0]
     result["sessions"] = int(totals["session_count"] or 0)
     result["suite"] = suite_reading(ws)
+    if ws.has_table("plan_scenarios"):
+        result["planned"] = planned_and_done(ws, tests)
     return result
+
+
+def _in_order(wanted: Sequence[int], framed: Sequence[int]) -> bool:
+    """True when ``wanted`` occurs in ``framed`` in order (other steps may come between)."""
+    steps = iter(framed)
+    return all(any(step == item for step in steps) for item in wanted)
+
+
+def planned_and_done(ws: Workspace, tests: TestPaths | None = None) -> list[dict[str, Any]]:
+    """The stored plan's scenarios, each with the counted tests that now exercise the gap it was
+    planned for (its path in order; a mined pattern's steps may have others between them): the
+    scenarios implemented since the plan."""
+    from gapfinder.plan import load_plan
+
+    tests = tests or load_test_paths(ws)
+    names = feature_names(ws.con)
+    ids = {name: i for i, name in enumerate(names)}
+    ids.update({"START": START, "END": END})
+    out = []
+    for row in load_plan(ws)["scenarios"]:
+        wanted = [ids.get(step, UNKNOWN - 1) for step in row["gap_path"]]
+        by = [
+            test_id
+            for test_id, framed in zip(tests.test_ids, tests.framed, strict=True)
+            if wanted and _in_order(wanted, framed)
+        ]
+        out.append({"scenario": row["scenario"], "name": row["name"], "gap_path": row["gap_path"], "exercised_by": by})
+    return out
 
 
 def suite_reading(ws: Workspace) -> dict[str, Any]:

@@ -3,10 +3,18 @@
 - ``pytest``: ``gapfinder_steps.py``, a step registry with one function per event (each raising
   NotImplementedError until someone writes it), and one ``test_gapfinder_<group>.py`` module per
   scenario group, one ``test_`` function per scenario calling the steps in order, its docstring
-  carrying the evidence, marked skip until its steps are implemented.
-- ``gherkin``: one ``.feature`` per group, one Scenario per candidate, steps phrased from a phrase
-  map (default: the event name's words; a YAML ``phrases: {event: "phrase"}`` overrides), tagged
-  with rank and share.
+  carrying the evidence, marked skip until its steps are implemented. Every step is decorated with
+  ``@step("event")``, which records the event through gapfinder's pytest plugin when a run file is
+  written (``pytest --gapfinder-trace run.ndjson``), so an implemented scenario counts as coverage
+  next sprint with no fixture calls. Test modules load the registry from their own folder, so they
+  collect in pytest's prepend, append and importlib modes and inside a package. Exporting again adds
+  stubs for new events to the registry and never changes a step already there; a test module that
+  was edited is kept (``force`` replaces test modules, never the registry's steps).
+- ``gherkin``: one ``.feature`` per group, one Scenario per candidate (tagged ``@pending`` until it
+  is implemented, and with rank and share), steps phrased from a phrase map (default: the event
+  name's words; a YAML ``phrases: {event: "phrase"}`` overrides), and ``gapfinder_steps.yaml``: the
+  steps map that ``gapfinder suite`` picks up beside the features, so every step reads back as its
+  event with no option.
 - ``json`` and ``csv``: every field of the plan.
 
 A scenario's group is the last step of the gap it was built for (the feature it is about). File
@@ -21,19 +29,68 @@ import io
 import json
 import os
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+import regex
+
 from gapfinder.align import read_yaml_table
 from gapfinder.errors import ConfigError, InputError
-from gapfinder.quoting import gherkin_text, python_identifier, python_string, python_text, slug
-from gapfinder.safe_io import check_target, write_files
+from gapfinder.quoting import gherkin_text, python_identifier, python_string, python_text, slug, yaml_string
+from gapfinder.safe_io import check_target, read_text, write_files
 
 __all__ = ["EXPORT_FORMATS", "ExportResult", "export_plan", "slug"]
 
 EXPORT_FORMATS = ("pytest", "gherkin", "json", "csv")
 STEPS_MODULE = "gapfinder_steps"
+STEPS_MAP = "gapfinder_steps.yaml"
+_REGISTRY_HEAD = '''"""Step registry written by gapfinder export: one function per product event.
+
+Implement each step with your test driver (API client, browser, app automation); the scenarios in
+test_gapfinder_*.py call them in order. Remove a scenario's skip mark when its steps work. Keep the
+@step decorator: it records the event for `gapfinder suite` when pytest runs with
+--gapfinder-trace, so the scenario counts as coverage. Exporting again only adds new steps here."""
+
+from collections.abc import Callable
+from functools import wraps
+from typing import Any
+
+try:
+    from gapfinder.pytest_plugin import record_step
+except ImportError:  # gapfinder is not installed where the tests run: nothing is recorded
+
+    def record_step(event: str) -> None:
+        return None
+
+
+def step(event: str) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
+    """Mark a function as performing ``event``; each call is recorded as one step of the running test."""
+
+    def decorate(function: Callable[..., Any]) -> Callable[..., Any]:
+        @wraps(function)
+        def performed(*args: Any, **kwargs: Any) -> Any:
+            record_step(event)
+            return function(*args, **kwargs)
+
+        return performed
+
+    return decorate
+'''
+_LOAD_REGISTRY = '''def _load_steps() -> ModuleType:
+    """The step registry beside this file, whatever pytest's import mode or package layout."""
+    path = Path(__file__).resolve().with_name("gapfinder_steps.py")
+    name = "gapfinder_steps_" + hashlib.sha256(str(path).encode()).hexdigest()[:12]
+    if name not in sys.modules:
+        spec = importlib.util.spec_from_file_location(name, path)
+        assert spec is not None and spec.loader is not None
+        module = importlib.util.module_from_spec(spec)
+        sys.modules[name] = module
+        spec.loader.exec_module(module)
+    return sys.modules[name]
+
+
+steps = _load_steps()'''
 
 
 @dataclass
@@ -43,6 +100,7 @@ class ExportResult:
     folder: Path
     files: list[str]
     scenarios: int
+    kept: list[str] = field(default_factory=list)  # test modules that differ from the plan's and were kept
 
 
 def _group_of(row: dict[str, Any]) -> str:
@@ -62,28 +120,68 @@ def _evidence_lines(row: dict[str, Any]) -> list[str]:
     ]
 
 
-def _pytest_files(plan: dict[str, Any]) -> dict[str, str]:
-    names: dict[str, str] = {}
-    events = sorted({e for row in plan["scenarios"] for e in row["path"]})
-    for event in events:
-        python_identifier(event, names)
-    registry = [
-        '"""Step registry written by gapfinder export: one function per product event.',
+def registry_events(text: str, where: str = STEPS_MODULE + ".py") -> dict[str, str]:
+    """{event: function name} of the ``@step("event")`` functions an existing registry defines."""
+    import ast
+
+    try:
+        tree = ast.parse(text)
+    except SyntaxError as exc:
+        raise ConfigError(
+            f"{where}:{exc.lineno}: is not valid Python, so no step can be added to it; fix it, then export again"
+        ) from None
+    found: dict[str, str] = {}
+    for node in tree.body:
+        if not isinstance(node, ast.FunctionDef):
+            continue
+        for decorator in node.decorator_list:
+            if (
+                isinstance(decorator, ast.Call)
+                and isinstance(decorator.func, ast.Name)
+                and decorator.func.id == "step"
+                and decorator.args
+                and isinstance(decorator.args[0], ast.Constant)
+                and isinstance(decorator.args[0].value, str)
+            ):
+                found.setdefault(decorator.args[0].value, node.name)
+    return found
+
+
+def _step_stub(event: str, name: str) -> list[str]:
+    return [
         "",
-        "Implement each step with your test driver (API client, browser, app automation); the",
-        "scenarios in test_gapfinder_*.py call them in order. Remove a scenario's skip mark when",
-        'its steps work."""',
         "",
+        f"@step({python_string(event)})",
+        f"def {name}() -> None:",
+        f'    """Perform the event {python_text(event)} as a user would."""',
+        f"    raise NotImplementedError({python_string(event)})",
     ]
+
+
+def _pytest_files(plan: dict[str, Any], existing_registry: str | None = None) -> dict[str, str]:
+    known = registry_events(existing_registry) if existing_registry is not None else {}
+    names: dict[str, str] = {}
+    for function in known.values():
+        names[f"\x00taken:{function}"] = function  # keep the names of existing steps from being reused
+    events = sorted({e for row in plan["scenarios"] for e in row["path"]})
+    functions = {e: known[e] for e in events if e in known}
     for event in events:
-        registry += [
-            "",
-            f"def {names[event]}() -> None:",
-            f'    """Perform the event {python_text(event)} as a user would."""',
-            f"    raise NotImplementedError({python_string(event)})",
-            "",
-        ]
-    files = {f"{STEPS_MODULE}.py": "\n".join(registry).rstrip() + "\n"}
+        if event not in functions:
+            # a step named test… would look like a test to pytest: such names get a step_ prefix
+            prefix = "step_" if slug(event, limit=50).startswith("test") else ""
+            functions[event] = python_identifier(event, names, prefix=prefix)
+    new = [e for e in events if e not in known]
+    if existing_registry is None:
+        registry = _REGISTRY_HEAD.rstrip("\n").split("\n")
+        for event in events:
+            registry += _step_stub(event, functions[event])
+        registry_text = "\n".join(registry) + "\n"
+    else:
+        added: list[str] = []
+        for event in new:
+            added += _step_stub(event, functions[event])
+        registry_text = existing_registry.rstrip("\n") + "\n" + "\n".join(added) + "\n" if added else existing_registry
+    files = {f"{STEPS_MODULE}.py": registry_text}
     groups: dict[str, list[dict[str, Any]]] = {}
     for row in plan["scenarios"]:
         groups.setdefault(_group_of(row), []).append(row)
@@ -91,11 +189,18 @@ def _pytest_files(plan: dict[str, Any]) -> dict[str, str]:
         lines = [
             f'"""Candidate scenarios from gapfinder: journeys ending in {python_text(group)}, not yet tested."""',
             "",
+            "import hashlib",
+            "import importlib.util",
+            "import sys",
+            "from pathlib import Path",
+            "from types import ModuleType",
+            "",
             "import pytest",
             "",
-            f"import {STEPS_MODULE} as steps",
-            "",
             'PENDING = "gapfinder candidate: implement its steps in gapfinder_steps.py, then remove this mark"',
+            "",
+            "",
+            *_LOAD_REGISTRY.split("\n"),
         ]
         test_names: dict[str, str] = {}
         for row in rows:
@@ -106,7 +211,7 @@ def _pytest_files(plan: dict[str, Any]) -> dict[str, str]:
             lines.append("")
             lines += [f"    {python_text(line)}".rstrip() for line in _evidence_lines(row)]
             lines.append('    """')
-            lines += [f"    steps.{names[event]}()" for event in row["path"]]
+            lines += [f"    steps.{functions[event]}()" for event in row["path"]]
         files[f"test_gapfinder_{group}.py"] = "\n".join(lines) + "\n"
     return files
 
@@ -119,28 +224,52 @@ def _gherkin_files(plan: dict[str, Any], phrases: dict[str, str]) -> dict[str, s
     groups: dict[str, list[dict[str, Any]]] = {}
     for row in plan["scenarios"]:
         groups.setdefault(_group_of(row), []).append(row)
+    events = sorted({e for row in plan["scenarios"] for e in row["path"]})
+    # one phrase per event, so that the steps map reads each step back as its own event
+    phrase_of: dict[str, str] = {}
+    taken: set[str] = set()
+    for event in events:
+        phrase, n = _phrase(event, phrases), 1
+        while phrase.casefold() in taken:
+            n += 1
+            phrase = f"{_phrase(event, phrases)} ({n})"
+        taken.add(phrase.casefold())
+        phrase_of[event] = phrase
     files = {}
     for group, rows in sorted(groups.items()):
         lines = [
             f"Feature: Journeys ending in {group.replace('_', ' ')} that no test exercised",
             "  Candidate scenarios from gapfinder, most worth a test first. Each is the most probable",
-            "  complete session through an untested path; its comments carry the evidence.",
+            "  complete session through an untested path; its comments carry the evidence. Remove a",
+            "  scenario's @pending tag when its steps are implemented: then it counts as coverage.",
         ]
         for row in rows:
             lines.append("")
             lines += [f"  # {gherkin_text(line)}" for line in _evidence_lines(row)]
             lines.append(
-                f"  @gapfinder @rank-{int(row['scenario'])} @share-{100 * float(row['share']):.1f}pct".replace(".", "_")
+                f"  @gapfinder @pending @rank-{int(row['scenario'])} @share-{100 * float(row['share']):.1f}pct".replace(
+                    ".", "_"
+                )
             )
             lines.append(f"  Scenario: {gherkin_text(row['name'])}")
             for n, event in enumerate(row["path"]):
-                keyword_ = (
-                    "Given"
-                    if n == 0
-                    else ("Then" if n == len(row["path"]) - 1 and n > 1 else ("When" if n == 1 else "And"))
-                )
-                lines.append(f"    {keyword_} {_phrase(event, phrases)}")
+                # Given, When, then And: every step is an action (a Then would read as an assertion)
+                keyword_ = "Given" if n == 0 else ("When" if n == 1 else "And")
+                lines.append(f"    {keyword_} {phrase_of[event]}")
         files[f"gapfinder_{group}.feature"] = "\n".join(lines) + "\n"
+    steps_map = [
+        "# Written by gapfinder export: the phrase of each exported step and the event it performs.",
+        "# `gapfinder suite` reads it for the .feature files in this folder and below.",
+        "steps:",
+    ]
+    for event in events:
+        if not event.strip():
+            continue  # a blank name is no event a steps map can name
+        pattern = regex.escape(phrase_of[event], special_only=True, literal_spaces=True)
+        steps_map.append(f"  {yaml_string(pattern)}: {yaml_string(event)}")
+    if len(steps_map) == 3:
+        steps_map[-1] = "steps: {}"
+    files[STEPS_MAP] = "\n".join(steps_map) + "\n"
     return files
 
 
@@ -196,8 +325,13 @@ def export_plan(
                 phrase_map, key="phrases", option="--phrases", what="event names to step phrases"
             ).items()
         }
+    kept: list[str] = []
     if as_format == "pytest":
-        files = _pytest_files(plan)
+        registry_path = target / f"{STEPS_MODULE}.py"
+        existing = None
+        if target.exists() and check_target(target, registry_path.name, option="--to").exists():
+            existing = read_text(registry_path, what="step registry")
+        files = _pytest_files(plan, existing)
     elif as_format == "gherkin":
         files = _gherkin_files(plan, phrases)
     elif as_format == "json":
@@ -206,11 +340,20 @@ def export_plan(
         files = {"gapfinder_plan.json": json.dumps(portable, indent=2, sort_keys=True, default=str) + "\n"}
     else:
         files = {"gapfinder_plan.csv": _csv_file(plan)}
-    for name, text in files.items():
-        if not re.fullmatch(r"[a-z0-9_]+\.(py|feature|json|csv)", name):
+    for name, text in list(files.items()):
+        if not re.fullmatch(r"[a-z0-9_]+\.(py|feature|json|csv|yaml)", name):
             raise ConfigError(f"refusing to write {name!r}: not a name export makes")  # defence in depth
         path = check_target(target, name, option="--to") if target.exists() else target / name
-        if path.exists() and not force and path.read_text(encoding="utf-8", errors="replace") != text:
+        if not path.exists() or name == f"{STEPS_MODULE}.py":
+            continue
+        current = path.read_text(encoding="utf-8", errors="replace")
+        if current == text:
+            continue
+        if as_format == "pytest" and name.startswith("test_gapfinder_") and not force:
+            # an edited test module is someone's work in progress: keep it, say so
+            kept.append(name)
+            del files[name]
+        elif not force:
             raise ConfigError(f"{path} exists and differs: pass --force to overwrite it")
     write_files(target, files, option="--to")
-    return ExportResult(target, sorted(files), len(plan["scenarios"]))
+    return ExportResult(target, sorted(files), len(plan["scenarios"]), kept=kept)

@@ -354,6 +354,10 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
         "method": selection.method,
         "coverage": headline,
     }
+    if ws.has_table("plan_scenarios"):
+        from gapfinder.coverage import planned_and_done
+
+        plan["earlier_plan"] = planned_and_done(ws, tests)
     _store(ws, plan, options)
     return plan
 

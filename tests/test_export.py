@@ -53,6 +53,8 @@ def test_gherkin_parses_with_one_scenario_per_candidate(plan: dict, tmp_path: Pa
     result = export_plan(plan, tmp_path, as_format="gherkin")
     scenarios = 0
     for name in result.files:
+        if not name.endswith(".feature"):
+            continue
         document = Parser().parse((tmp_path / name).read_text())
         children = document["feature"]["children"]
         scenarios += sum(1 for c in children if "scenario" in c)
@@ -77,18 +79,94 @@ def test_json_and_csv_carry_every_field(plan: dict, tmp_path: Path) -> None:
     assert {"scenario", "path", "gain_share", "sessions", "users", "share", "reason"} <= set(header)
 
 
-def test_reexport_is_byte_identical_and_never_overwrites_without_force(plan: dict, tmp_path: Path) -> None:
+def test_reexport_is_byte_identical_and_keeps_edited_work(plan: dict, tmp_path: Path) -> None:
     first = export_plan(plan, tmp_path, as_format="pytest")
     before = {name: (tmp_path / name).read_bytes() for name in first.files}
     export_plan(plan, tmp_path, as_format="pytest")  # same content: allowed, unchanged
     assert {name: (tmp_path / name).read_bytes() for name in first.files} == before
     target = tmp_path / first.files[-1]
     target.write_text("# my edits\n")
-    with pytest.raises(ConfigError, match="--force"):
-        export_plan(plan, tmp_path, as_format="pytest")
-    assert target.read_text() == "# my edits\n"
+    again = export_plan(plan, tmp_path, as_format="pytest")
+    assert again.kept == [first.files[-1]] and target.read_text() == "# my edits\n"
     export_plan(plan, tmp_path, as_format="pytest", force=True)
     assert target.read_bytes() == before[first.files[-1]]
+    # Gherkin and data files are still refused without --force
+    export_plan(plan, tmp_path / "g", as_format="json")
+    (tmp_path / "g" / "gapfinder_plan.json").write_text("{}")
+    with pytest.raises(ConfigError, match="--force"):
+        export_plan(plan, tmp_path / "g", as_format="json")
+
+
+def test_reexport_adds_new_steps_and_never_touches_an_implemented_one(plan: dict, tmp_path: Path) -> None:
+    smaller = {**plan, "scenarios": plan["scenarios"][:1]}
+    export_plan(smaller, tmp_path, as_format="pytest")
+    registry = tmp_path / "gapfinder_steps.py"
+    first_event = smaller["scenarios"][0]["path"][0]
+    text = registry.read_text()
+    implemented = text.replace(f"    raise NotImplementedError({first_event!r})", "    pass  # implemented", 1)
+    assert implemented != text
+    registry.write_text(implemented)
+    for force in (False, True):  # not even --force replaces a step
+        export_plan(plan, tmp_path, as_format="pytest", force=force)
+        merged = registry.read_text()
+        assert merged.startswith(implemented)
+        assert merged.count(f"@step({first_event!r})") == 1
+        for event in {e for row in plan["scenarios"] for e in row["path"]}:
+            assert f"@step({event!r})" in merged
+    broken = tmp_path / "b"
+    export_plan(smaller, broken, as_format="pytest")
+    (broken / "gapfinder_steps.py").write_text("def oops(:\n")
+    with pytest.raises(ConfigError, match=r"gapfinder_steps.py:1: is not valid Python"):
+        export_plan(plan, broken, as_format="pytest")
+
+
+@pytest.mark.parametrize("mode", ["prepend", "append", "importlib", "package"])
+def test_skeletons_collect_in_every_import_mode_and_in_a_package(plan: dict, tmp_path: Path, mode: str) -> None:
+    folder = tmp_path / "tests" / "gapfinder"
+    export_plan(plan, folder, as_format="pytest")
+    args = [sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", "tests"]
+    if mode == "package":
+        (tmp_path / "tests" / "__init__.py").write_text("")
+        (folder / "__init__.py").write_text("")
+    else:
+        args += [f"--import-mode={mode}"]
+    ran = subprocess.run(args, cwd=tmp_path, capture_output=True, text=True)
+    assert ran.returncode == 0, ran.stdout + ran.stderr
+    assert f"{len(plan['scenarios'])} skipped" in ran.stdout
+
+
+def test_the_sprint_loop_closes(plan: dict, tmp_path: Path, suite_workspace: Path) -> None:
+    """Export the plan, implement the steps trivially, run pytest with the plugin, read the new run
+    beside the old suite: transition coverage equals the plan's "after" figure."""
+    from gapfinder.coverage import coverage_report
+    from gapfinder.suite import load_suite
+    from tests.helpers import SAMPLE
+
+    folder = tmp_path / "repo" / "tests"
+    export_plan(plan, folder, as_format="pytest")
+    registry = folder / "gapfinder_steps.py"
+    registry.write_text(registry.read_text().replace("    raise NotImplementedError(", "    print("))
+    for module in folder.glob("test_gapfinder_*.py"):
+        module.write_text(module.read_text().replace("@pytest.mark.skip(reason=PENDING)\n", ""))
+    run_file = tmp_path / "run.ndjson"
+    ran = subprocess.run(
+        [sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", "--gapfinder-trace", str(run_file), "tests"],
+        cwd=tmp_path / "repo",
+        capture_output=True,
+        text=True,
+    )
+    assert ran.returncode == 0, ran.stdout + ran.stderr
+    ws_path = tmp_path / "ws.duckdb"
+    shutil.copy(suite_workspace, ws_path)
+    with Workspace(ws_path) as ws:
+        make_plan(ws, PlanOptions(budget=6))
+        summary = load_suite(ws, [SAMPLE / "tests" / "suite_traces.csv", run_file])
+        assert summary["unmapped_step_count"] == 0
+        assert summary["test_count"] == 8 + len(plan["scenarios"])
+        result = coverage_report(ws)
+    after = plan["coverage"]["transitions"]["after"]
+    assert result["metrics"]["transitions"]["strict"]["by_sessions"] == pytest.approx(after, abs=1e-9)
+    assert all(p["exercised_by"] for p in result["planned"])  # planned and done
 
 
 def test_names_cannot_escape_the_folder(plan: dict, tmp_path: Path) -> None:

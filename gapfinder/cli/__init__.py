@@ -725,7 +725,9 @@ def export(workspace: str, to: str, as_format: str, force: bool, phrases: str | 
     """Write the stored plan's scenarios as test skeletons to drop into a test repository.
 
     Files are named from the scenarios, written only inside --to, and never over a different
-    existing file without --force; exporting the same plan again gives identical files.
+    existing file without --force; exporting the same plan again gives identical files. Exporting
+    pytest skeletons again adds new step stubs to gapfinder_steps.py and never changes a step
+    already there; an edited test module is kept (--force replaces test modules only).
     """
     from gapfinder.export import export_plan
     from gapfinder.plan import load_plan
@@ -737,6 +739,8 @@ def export(workspace: str, to: str, as_format: str, force: bool, phrases: str | 
     click.echo(f"wrote {len(result.files)} file(s) for {result.scenarios} scenario(s) to {result.folder}:", err=True)
     for name in result.files:
         click.echo(str(result.folder / name))
+    for name in result.kept:
+        click.echo(f"kept {result.folder / name}: it was edited since the last export (--force replaces it)", err=True)
 
 
 @cli.command(name="run")

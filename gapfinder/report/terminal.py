@@ -311,6 +311,13 @@ def render_coverage(result: dict[str, Any], console: Console) -> None:
             "no field event and exercise nothing here; see `gapfinder align`, or record test-run telemetry "
             "(`suite --events`)"
         )
+    planned = result.get("planned") or []
+    if planned:
+        done = [p for p in planned if p["exercised_by"]]
+        console.print(
+            f"planned and done: {len(done)} of {len(planned)} scenarios of the stored plan are now exercised"
+            + (": " + ", ".join(f"#{p['scenario']} {p['name']}" for p in done[:5]) if done else "")
+        )
     lenient = result["max_gap"] > 0
     columns = [("metric", "left"), ("exercised", "right"), ("of items", "right"), ("by occurrences", "right")]
     columns += [("by sessions", "right"), ("by users", "right")]
@@ -471,6 +478,13 @@ def render_plan(result: dict[str, Any], console: Console) -> None:
     for metric, v in result["coverage"].items():
         coverage.add_row(metric, _opt_pct(v["before"]), _opt_pct(v["after"]))
     console.print(coverage)
+    earlier = result.get("earlier_plan") or []
+    if earlier:
+        done = [p for p in earlier if p["exercised_by"]]
+        console.print(
+            f"the previous plan: {len(done)} of {len(earlier)} scenarios are now exercised by the suite"
+            + (" (" + ", ".join(f"#{p['scenario']} {p['name']}" for p in done[:5]) + ")" if done else "")
+        )
 
 
 def render_audit(result: dict[str, Any], console: Console) -> None:

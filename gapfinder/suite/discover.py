@@ -8,7 +8,8 @@ files, snapshots, build output. A file is taken by what it holds, not only by it
 - ``.json``/``.ndjson``/``.jsonl``: OTLP/JSON traces (``resourceSpans``), a Cucumber JSON report
   (a list of features with ``elements``), Cucumber Messages (one envelope per line), the pytest
   plugin's run file (``gapfinder_run``) or a trace table (objects with a test id and an event);
-- ``.yaml``/``.yml``: a catalog when it has a top-level ``tests:`` key;
+- ``.yaml``/``.yml``: a catalog when it has a top-level ``tests:`` key; ``gapfinder_steps.yaml``
+  with a ``steps:`` key is a steps map for the Gherkin files in its folder and below;
 - ``.csv``/``.tsv``/``.parquet``: a trace table when it has a test id and an event column.
 
 Inside a folder, hidden files and folders and dependency or fixture folders (``fixtures``,
@@ -30,12 +31,15 @@ from pathlib import Path
 
 from gapfinder.errors import InputError
 
-__all__ = ["SuiteFile", "discover_suite_files", "sniff_kind"]
+__all__ = ["STEPS_MAP_NAME", "SuiteFile", "discover_suite_files", "sniff_kind"]
 
 SKIPPED_FOLDERS = frozenset(
     {"fixtures", "fixture", "__fixtures__", "node_modules", "__pycache__", "venv", "site-packages", "__snapshots__"}
 )
 _HEAD_BYTES = 65536
+# A steps map beside .feature files (as `gapfinder export --as gherkin` writes one) applies to the
+# features in its folder and below.
+STEPS_MAP_NAME = "gapfinder_steps.yaml"
 _FIRST_TAG = re.compile(rb"<\s*([A-Za-z_][\w.:-]*)")
 _MARKUP_PREFIX = re.compile(rb"\A\s*(?:<\?.*?\?>\s*|<!--.*?-->\s*|<!DOCTYPE[^>]*?(?:\[.*?\])?\s*>\s*)*", re.S)
 _NAMED_FALLBACK = {
@@ -107,6 +111,8 @@ def sniff_kind(path: Path, test_columns: tuple[str, str] = ("test_id", "event"))
                 return "trace-ndjson"
         return None
     if suffix in (".yaml", ".yml"):
+        if name == STEPS_MAP_NAME and re.search(rb"(?m)^steps\s*:", head):
+            return "steps-map"
         return "catalog" if re.search(rb"(?m)^tests\s*:", head) else None
     if suffix in (".csv", ".tsv"):
         first_line = head.split(b"\n", 1)[0].decode("utf-8", errors="replace").lstrip("\ufeff")

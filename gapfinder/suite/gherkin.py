@@ -96,7 +96,7 @@ class StepPhrases:
                 ) from None
             if event is not None and not (isinstance(event, str) and event.strip()):
                 raise ConfigError(f"--steps-map {where}: phrase {phrase!r} must map to an event name or null")
-            rules.append((pattern, event.strip() if isinstance(event, str) else None))
+            rules.append((pattern, event if isinstance(event, str) else None))  # YAML trims plain scalars
         return cls(tuple(rules), where)
 
     def event_for(self, text: str) -> tuple[bool, str | None]:

@@ -6,6 +6,7 @@ import json
 import os
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any
 
 import pyarrow as pa
@@ -78,6 +79,19 @@ def _read_one(file: SuiteFile, options: SuiteOptions, phrases: StepPhrases | Non
     if path.stat().st_size == 0:
         raise InputError(f"{path}: the file is empty")
     return read_trace_files(SourceFiles(_TRACE_FORMATS[kind], (str(path),), str(path)), options.mapping)
+
+
+def _phrases_for(file: SuiteFile, given: StepPhrases | None, local_maps: dict[Path, StepPhrases]) -> StepPhrases | None:
+    """The --steps-map rules first, then those of steps maps in the file's folder and its parents."""
+    if not local_maps:
+        return given
+    rules = list(given.rules) if given else []
+    sources = [given.source] if given else []
+    for folder in (file.path.resolve().parent, *file.path.resolve().parents):
+        if folder in local_maps:
+            rules.extend(local_maps[folder].rules)
+            sources.append(local_maps[folder].source)
+    return StepPhrases(tuple(rules), ", ".join(sources)) if rules else given
 
 
 def _join_results_to_scenarios(report: ReaderReport) -> int:
@@ -182,9 +196,13 @@ def read_suite(inputs: Sequence[str | os.PathLike[str]], options: SuiteOptions |
     if options.strict and problems:
         raise InputError(problems[0])
     report = ReaderReport(problems=list(problems), files_ignored=ignored)
+    local_maps = {f.path.resolve().parent: StepPhrases.load(f.path) for f in files if f.kind == "steps-map"}
     for file in files:
+        if file.kind == "steps-map":
+            report.files_read["steps-map"] = report.files_read.get("steps-map", 0) + 1
+            continue
         try:
-            part = _read_one(file, options, phrases)
+            part = _read_one(file, options, _phrases_for(file, phrases, local_maps))
         except ConfigError:
             raise
         except InputError as exc:
