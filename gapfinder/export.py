@@ -34,6 +34,7 @@ from pathlib import Path
 from typing import Any
 
 import regex
+import yaml
 
 from gapfinder.align import read_yaml_table
 from gapfinder.errors import ConfigError, InputError
@@ -220,7 +221,7 @@ def _phrase(event: str, phrases: dict[str, str]) -> str:
     return gherkin_text(phrases.get(event) or f"I {event.replace('_', ' ')}")
 
 
-def _gherkin_files(plan: dict[str, Any], phrases: dict[str, str]) -> dict[str, str]:
+def _gherkin_files(plan: dict[str, Any], phrases: dict[str, str], earlier_map: str | None = None) -> dict[str, str]:
     groups: dict[str, list[dict[str, Any]]] = {}
     for row in plan["scenarios"]:
         groups.setdefault(_group_of(row), []).append(row)
@@ -262,10 +263,19 @@ def _gherkin_files(plan: dict[str, Any], phrases: dict[str, str]) -> dict[str, s
         "# `gapfinder suite` reads it for the .feature files in this folder and below.",
         "steps:",
     ]
+    entries: dict[str, str] = {}
+    if earlier_map is not None:  # the features of earlier exports keep their phrases
+        try:
+            table = (yaml.safe_load(earlier_map) or {}).get("steps") or {}
+        except (yaml.YAMLError, AttributeError):
+            table = {}
+        entries.update({str(k): str(v) for k, v in table.items() if isinstance(v, str) and v.strip()})
     for event in events:
         if not event.strip():
             continue  # a blank name is no event a steps map can name
         pattern = regex.escape(phrase_of[event], special_only=True, literal_spaces=True)
+        entries.setdefault(pattern, event)
+    for pattern, event in entries.items():
         steps_map.append(f"  {yaml_string(pattern)}: {yaml_string(event)}")
     if len(steps_map) == 3:
         steps_map[-1] = "steps: {}"
@@ -333,7 +343,10 @@ def export_plan(
             existing = read_text(registry_path, what="step registry")
         files = _pytest_files(plan, existing)
     elif as_format == "gherkin":
-        files = _gherkin_files(plan, phrases)
+        earlier = None
+        if target.exists() and check_target(target, STEPS_MAP, option="--to").exists():
+            earlier = read_text(target / STEPS_MAP, what="steps map")
+        files = _gherkin_files(plan, phrases, earlier)
     elif as_format == "json":
         # where the workspace lay is left out: the same plan gives the same bytes wherever it is
         portable = {k: v for k, v in plan.items() if k != "workspace"}
@@ -344,7 +357,7 @@ def export_plan(
         if not re.fullmatch(r"[a-z0-9_]+\.(py|feature|json|csv|yaml)", name):
             raise ConfigError(f"refusing to write {name!r}: not a name export makes")  # defence in depth
         path = check_target(target, name, option="--to") if target.exists() else target / name
-        if not path.exists() or name == f"{STEPS_MODULE}.py":
+        if not path.exists() or name in (f"{STEPS_MODULE}.py", STEPS_MAP):
             continue
         current = path.read_text(encoding="utf-8", errors="replace")
         if current == text:

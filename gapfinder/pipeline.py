@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any
 
 from gapfinder.errors import ConfigError, InputError
-from gapfinder.export import export_plan
+from gapfinder.export import STEPS_MAP, export_plan
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.patterns import MiningOptions, mine_workspace
 from gapfinder.plan import PlanOptions, make_plan
@@ -40,6 +40,7 @@ class PipelineResult:
     workspace: Path
     files: list[str] = field(default_factory=list)
     summary: dict[str, Any] = field(default_factory=dict)
+    kept: list[str] = field(default_factory=list)  # skeletons edited since an earlier run, left as they were
 
 
 def run_pipeline(
@@ -71,12 +72,24 @@ def run_pipeline(
     except OSError as exc:
         raise InputError(f"--out {folder}: cannot write there ({exc.strerror})") from None
     try:
-        result = _run_into(staging, telemetry, tests, profile, suite, plan, mining, top, min_users, say)
+        previous_pytest = folder / "pytest"
+        if previous_pytest.is_dir():
+            # the skeletons of an earlier run, perhaps implemented since: export merges into them
+            shutil.copytree(previous_pytest, staging / "pytest", symlinks=True, ignore=_only_python_files)
+        previous_map = folder / "gherkin" / STEPS_MAP
+        if previous_map.is_file() and not previous_map.is_symlink():
+            (staging / "gherkin").mkdir()
+            shutil.copyfile(previous_map, staging / "gherkin" / STEPS_MAP)
+        result = _run_into(staging, telemetry, tests, profile, suite, plan, mining, top, min_users, say, force)
         outputs = {name: (staging / name).read_bytes() for name in result.files}
-        for name, content in outputs.items():
+        for name, content in list(outputs.items()):
             existing = folder / name
-            if existing.is_file() and not force and existing.read_bytes() != content and name != "summary.md":
-                raise ConfigError(f"{existing} exists and differs: pass --force to overwrite it")
+            if name in _ALWAYS_REPLACED or not existing.is_file() or force or existing.read_bytes() == content:
+                continue
+            # a skeleton edited since the last run is someone's work: keep it and say so
+            del outputs[name]
+            result.kept.append(name)
+        result.files = [name for name in result.files if name in outputs]
         by_folder: dict[Path, dict[str, bytes]] = {}
         for name, content in outputs.items():
             by_folder.setdefault((folder / name).parent, {})[Path(name).name] = content
@@ -87,7 +100,25 @@ def run_pipeline(
         shutil.rmtree(staging, ignore_errors=True)
     final = folder / "workspace.duckdb"
     result.summary["profile"]["workspace"] = str(final)
-    return PipelineResult(folder, final, result.files, result.summary)
+    return PipelineResult(folder, final, result.files, result.summary, kept=result.kept)
+
+
+# Regenerated on every run: the summary, the plan's data files, and the registry and steps map,
+# which keep every earlier step (export merges new steps into them).
+_ALWAYS_REPLACED = frozenset(
+    {
+        "summary.md",
+        "gapfinder_plan.json",
+        "gapfinder_plan.csv",
+        "pytest/gapfinder_steps.py",
+        "gherkin/gapfinder_steps.yaml",
+    }
+)
+
+
+def _only_python_files(folder: str, names: list[str]) -> list[str]:
+    """shutil.copytree's ignore: copy the .py files of the folder itself, nothing else."""
+    return [n for n in names if not n.endswith(".py") or os.path.islink(os.path.join(folder, n))]
 
 
 def _run_into(
@@ -101,6 +132,7 @@ def _run_into(
     top: int,
     min_users: int,
     say: Callable[[str], None],
+    force: bool = False,
 ) -> PipelineResult:
     workspace = folder / "workspace.duckdb"
     say("profiling telemetry")
@@ -119,7 +151,7 @@ def _run_into(
     if planned["scenarios"]:
         say("exporting skeletons")
         for fmt, sub in (("pytest", "pytest"), ("gherkin", "gherkin"), ("json", "."), ("csv", ".")):
-            exported = export_plan(planned, folder / sub, as_format=fmt, force=True)
+            exported = export_plan(planned, folder / sub, as_format=fmt, force=force or fmt != "pytest")
             files += [str(Path(sub) / f) if sub != "." else f for f in exported.files]
     summary = {
         "profile": profile_summary,
@@ -134,6 +166,15 @@ def _run_into(
     return PipelineResult(folder, workspace, sorted(files), summary)
 
 
+def _suite_line(suite: dict[str, Any]) -> str:
+    left_out = ", ".join(f"{n:,} {reason}" for reason, n in sorted((suite.get("left_out") or {}).items()))
+    return (
+        f"Suite: {suite['counted_test_count']:,} of {suite['test_count']:,} tests count as exercising"
+        + (f" (left out: {left_out})" if left_out else "")
+        + f"; {suite['mapped_step_count']:,} steps mapped to field events, {suite['unmapped_step_count']:,} unmapped."
+    )
+
+
 def render_summary_markdown(summary: dict[str, Any]) -> str:
     """The one-page Markdown summary of a run (coverage, gaps, plan, unused tests, privacy)."""
     profile, suite, gaps, plan, unused = (summary[k] for k in ("profile", "suite", "gaps", "plan", "unused"))
@@ -146,6 +187,8 @@ def render_summary_markdown(summary: dict[str, Any]) -> str:
         f"{reading.get('last_ts', '')[:10]}), against {suite['test_count']} tests with {suite['step_count']} steps. "
         f"Automated traffic left out: {profile['automated']['users']} account(s), {profile['automated']['sessions']:,} "
         "sessions.",
+        "",
+        _suite_line(suite),
         "",
         "## Coverage now and after the plan",
         "",
@@ -195,6 +238,22 @@ def render_summary_markdown(summary: dict[str, Any]) -> str:
         "`gapfinder_plan.csv`.",
         "",
     ]
+    if unused.get("not_read"):
+        lines += [
+            f"## Tests not read ({len(unused['not_read'])})",
+            "",
+            "Their steps match no field event, so what they exercise is unknown; they are not judged rare.",
+            "Map the steps with `--steps-map` or `--aliases` (`gapfinder align` suggests events), or record a test "
+            "run's telemetry (`--events`).",
+            "",
+            "| test | steps | unmapped |",
+            "|---|---|---|",
+        ]
+        for r in unused["not_read"][:30]:
+            lines.append(f"| {markdown_code(r['test_id'])} | {r['steps']} | {r['unmapped_steps']} |")
+        if len(unused["not_read"]) > 30:
+            lines.append(f"| … and {len(unused['not_read']) - 30} more | | |")
+        lines.append("")
     lines += ["## Tests the field rarely takes", ""]
     if unused["unused"]:
         lines += ["| test | journey | sessions | share |", "|---|---|---|---|"]

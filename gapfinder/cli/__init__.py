@@ -286,133 +286,157 @@ def _parse_mapping(config: str | None, items: tuple[str, ...]) -> dict[str, str]
     return mapping
 
 
+def profile_options(func: F) -> F:
+    """The options of how telemetry is read and sessionized, shared by `profile` and `run`."""
+    decorators: list[Callable[[F], F]] = [
+        click.option(
+            "--map",
+            "maps",
+            multiple=True,
+            metavar="CANONICAL=SOURCE",
+            help="Map a canonical column (user_id, session_id, ts, event, app_version, platform, "
+            "outcome) to a source column; repeatable.",
+        ),
+        click.option(
+            "--config",
+            type=click.Path(dir_okay=False),
+            help="A gapfinder.toml whose [columns] table maps columns (default: ./gapfinder.toml if present).",
+        ),
+        click.option(
+            "--ts-unit",
+            type=click.Choice(["s", "ms", "us", "ns"]),
+            help="Unit of epoch-number timestamps (default: detected from their size).",
+        ),
+        click.option("--ts-format", help="strptime format of text timestamps (default: ISO-8601)."),
+        click.option(
+            "--idle",
+            default=30.0,
+            show_default=True,
+            type=FiniteFloat(min=0, min_open=True),
+            help="Minutes of inactivity that end a session (ignored with a session column).",
+        ),
+        click.option(
+            "--drop",
+            "drop_events",
+            multiple=True,
+            metavar="EVENT",
+            help="An event to remove before sessionizing (heartbeats, pings); repeatable.",
+        ),
+        click.option("--collapse-repeats", is_flag=True, help="Drop an event that repeats the one just before it."),
+        click.option(
+            "--max-events",
+            default=500,
+            show_default=True,
+            type=click.IntRange(min=0),
+            help="Cut sessions longer than this many events (0: no cap); the cut is reported.",
+        ),
+        click.option(
+            "--error-outcome",
+            "error_outcomes",
+            multiple=True,
+            metavar="VALUE",
+            help="An outcome value that means failure (default: error, fail, failed, exception, ...).",
+        ),
+        click.option(
+            "--automated/--no-automated",
+            "flag_automated",
+            default=True,
+            show_default=True,
+            help="Flag accounts far outside the rest as automated and keep them apart.",
+        ),
+        click.option("--include-automated", is_flag=True, help="Count flagged automated sessions in the paths too."),
+        click.option(
+            "--max-k",
+            default=5,
+            show_default=True,
+            type=click.IntRange(min=2),
+            help="Longest contiguous path (k-path) to count.",
+        ),
+        click.option(
+            "--key-env",
+            metavar="VAR",
+            help="Pseudonymize user ids with the HMAC-SHA256 key in this environment variable.",
+        ),
+        click.option(
+            "--key-file", type=click.Path(dir_okay=False), help="Pseudonymize user ids with the key in this file."
+        ),
+        click.option("--threads", type=click.IntRange(min=1), help="DuckDB threads (default: all cores)."),
+        click.option(
+            "--memory-limit", metavar="SIZE", help="DuckDB memory limit, e.g. 4GB; larger work spills to disk."
+        ),
+    ]
+    for decorate in reversed(decorators):
+        func = decorate(func)
+    return func
+
+
+def profile_options_from(values: dict[str, Any]) -> Any:
+    """ProfileOptions from the parsed values of `profile_options` (the keys are removed from ``values``)."""
+    from gapfinder.privacy import read_key
+    from gapfinder.sessions import DEFAULT_ERROR_OUTCOMES, SessionOptions
+    from gapfinder.usage_profile import ProfileOptions
+
+    v = {k: values.pop(k) for k in PROFILE_OPTION_NAMES}
+    return ProfileOptions(
+        mapping=_parse_mapping(v["config"], v["maps"]),
+        ts_unit=v["ts_unit"],
+        ts_format=v["ts_format"],
+        sessions=SessionOptions(
+            idle_minutes=v["idle"],
+            drop_events=v["drop_events"],
+            collapse_repeats=v["collapse_repeats"],
+            max_events=v["max_events"],
+            error_outcomes=v["error_outcomes"] or DEFAULT_ERROR_OUTCOMES,
+            flag_automated=v["flag_automated"],
+        ),
+        max_k=v["max_k"],
+        include_automated=v["include_automated"],
+        pseudonymize_key=read_key(env_var=v["key_env"], key_file=v["key_file"]),
+        threads=v["threads"],
+        memory_limit=v["memory_limit"],
+    )
+
+
+PROFILE_OPTION_NAMES = (
+    "maps",
+    "config",
+    "ts_unit",
+    "ts_format",
+    "idle",
+    "drop_events",
+    "collapse_repeats",
+    "max_events",
+    "error_outcomes",
+    "flag_automated",
+    "include_automated",
+    "max_k",
+    "key_env",
+    "key_file",
+    "threads",
+    "memory_limit",
+)
+
+
 @cli.command()
 @click.argument("telemetry", nargs=-1, required=True)
 @workspace_option
-@click.option(
-    "--map",
-    "maps",
-    multiple=True,
-    metavar="CANONICAL=SOURCE",
-    help="Map a canonical column (user_id, session_id, ts, event, app_version, platform, "
-    "outcome) to a source column; repeatable.",
-)
-@click.option(
-    "--config",
-    type=click.Path(dir_okay=False),
-    help="A gapfinder.toml whose [columns] table maps columns (default: ./gapfinder.toml if present).",
-)
-@click.option(
-    "--ts-unit",
-    type=click.Choice(["s", "ms", "us", "ns"]),
-    help="Unit of epoch-number timestamps (default: detected from their size).",
-)
-@click.option("--ts-format", help="strptime format of text timestamps (default: ISO-8601).")
-@click.option(
-    "--idle",
-    default=30.0,
-    show_default=True,
-    type=FiniteFloat(min=0, min_open=True),
-    help="Minutes of inactivity that end a session (ignored with a session column).",
-)
-@click.option(
-    "--drop",
-    "drop_events",
-    multiple=True,
-    metavar="EVENT",
-    help="An event to remove before sessionizing (heartbeats, pings); repeatable.",
-)
-@click.option("--collapse-repeats", is_flag=True, help="Drop an event that repeats the one just before it.")
-@click.option(
-    "--max-events",
-    default=500,
-    show_default=True,
-    type=click.IntRange(min=0),
-    help="Cut sessions longer than this many events (0: no cap); the cut is reported.",
-)
-@click.option(
-    "--error-outcome",
-    "error_outcomes",
-    multiple=True,
-    metavar="VALUE",
-    help="An outcome value that means failure (default: error, fail, failed, exception, ...).",
-)
-@click.option(
-    "--automated/--no-automated",
-    "flag_automated",
-    default=True,
-    show_default=True,
-    help="Flag accounts far outside the rest as automated and keep them apart.",
-)
-@click.option("--include-automated", is_flag=True, help="Count flagged automated sessions in the paths too.")
-@click.option(
-    "--max-k",
-    default=5,
-    show_default=True,
-    type=click.IntRange(min=2),
-    help="Longest contiguous path (k-path) to count.",
-)
-@click.option(
-    "--key-env", metavar="VAR", help="Pseudonymize user ids with the HMAC-SHA256 key in this environment variable."
-)
-@click.option("--key-file", type=click.Path(dir_okay=False), help="Pseudonymize user ids with the key in this file.")
+@profile_options
 @click.option(
     "--top", default=10, show_default=True, type=click.IntRange(min=1), help="Rows per listing in the summary."
 )
 @min_users_option("paths")
-@click.option("--threads", type=click.IntRange(min=1), help="DuckDB threads (default: all cores).")
-@click.option("--memory-limit", metavar="SIZE", help="DuckDB memory limit, e.g. 4GB; larger work spills to disk.")
 @output_options
 def profile(
-    telemetry: tuple[str, ...],
-    workspace: str,
-    maps: tuple[str, ...],
-    config: str | None,
-    ts_unit: str | None,
-    ts_format: str | None,
-    idle: float,
-    drop_events: tuple[str, ...],
-    collapse_repeats: bool,
-    max_events: int,
-    error_outcomes: tuple[str, ...],
-    flag_automated: bool,
-    include_automated: bool,
-    max_k: int,
-    key_env: str | None,
-    key_file: str | None,
-    top: int,
-    min_users: int,
-    threads: int | None,
-    memory_limit: str | None,
-    output_format: str,
+    telemetry: tuple[str, ...], workspace: str, top: int, min_users: int, output_format: str, **values: Any
 ) -> None:
     """Read telemetry, form sessions and build the usage profile in the workspace.
 
     TELEMETRY is one or more Parquet, CSV/TSV or NDJSON files, folders (searched recursively,
     hive partitions included) or globs.
     """
-    from gapfinder.privacy import read_key
-    from gapfinder.sessions import DEFAULT_ERROR_OUTCOMES, SessionOptions
-    from gapfinder.usage_profile import ProfileOptions, profile_telemetry
+    from gapfinder.usage_profile import profile_telemetry
 
-    options = ProfileOptions(
-        mapping=_parse_mapping(config, maps),
-        ts_unit=ts_unit,
-        ts_format=ts_format,
-        sessions=SessionOptions(
-            idle_minutes=idle,
-            drop_events=drop_events,
-            collapse_repeats=collapse_repeats,
-            max_events=max_events,
-            error_outcomes=error_outcomes or DEFAULT_ERROR_OUTCOMES,
-            flag_automated=flag_automated,
-        ),
-        max_k=max_k,
-        include_automated=include_automated,
-        pseudonymize_key=read_key(env_var=key_env, key_file=key_file),
-        threads=threads,
-        memory_limit=memory_limit,
-    )
+    options = profile_options_from(values)
     with _progress(total=4) as step:
         summary = profile_telemetry(telemetry, workspace, options, progress=step, top=top, min_users=min_users)
     _render_summary(summary, output_format)
@@ -743,82 +767,6 @@ def export(workspace: str, to: str, as_format: str, force: bool, phrases: str | 
         click.echo(f"kept {result.folder / name}: it was edited since the last export (--force replaces it)", err=True)
 
 
-@cli.command(name="run")
-@click.argument("telemetry", nargs=-1, required=True)
-@click.option(
-    "--tests", "tests", multiple=True, required=True, help="Test sources (as for `gapfinder suite`); repeatable."
-)
-@click.option(
-    "--out",
-    required=True,
-    type=click.Path(file_okay=False),
-    help="Folder for the workspace, plan, skeletons and summary.",
-)
-@click.option("--budget", default=8, show_default=True, type=click.IntRange(min=1), help="New scenarios to plan.")
-@click.option(
-    "--map",
-    "maps",
-    multiple=True,
-    metavar="CANONICAL=SOURCE",
-    help="Map a telemetry column (as for `gapfinder profile`); repeatable.",
-)
-@click.option("--top", default=10, show_default=True, type=click.IntRange(min=1), help="Gaps in the summary.")
-@min_users_option("paths")
-@click.option(
-    "--key-env", metavar="VAR", help="Pseudonymize user ids with the HMAC-SHA256 key in this environment variable."
-)
-@click.option("--key-file", type=click.Path(dir_okay=False), help="Pseudonymize user ids with the key in this file.")
-@click.option("--force", is_flag=True, help="Overwrite skeleton files that exist and differ.")
-def run_all(
-    telemetry: tuple[str, ...],
-    tests: tuple[str, ...],
-    out: str,
-    budget: int,
-    maps: tuple[str, ...],
-    top: int,
-    min_users: int,
-    key_env: str | None,
-    key_file: str | None,
-    force: bool,
-) -> None:
-    """The whole job at once: profile, suite, journeys, gaps, plan, skeletons and a Markdown summary.
-
-    Writes OUT/workspace.duckdb, OUT/summary.md, OUT/gapfinder_plan.json and .csv, and skeletons
-    under OUT/pytest/ and OUT/gherkin/.
-    """
-    from gapfinder.pipeline import run_pipeline
-    from gapfinder.plan import PlanOptions
-    from gapfinder.privacy import read_key
-    from gapfinder.usage_profile import ProfileOptions
-
-    key = read_key(env_var=key_env, key_file=key_file)
-
-    with _progress(total=6) as step:
-        result = run_pipeline(
-            telemetry,
-            tests,
-            out,
-            profile=ProfileOptions(mapping=_parse_mapping(None, maps), pseudonymize_key=key),
-            plan=PlanOptions(budget=budget, min_users=min_users),
-            top=top,
-            min_users=min_users,
-            force=force,
-            progress=step,
-        )
-    plan_result = result.summary["plan"]
-    coverage = plan_result["coverage"].get("transitions", {})
-    click.echo(
-        f"{len(result.summary['gaps']['gaps'])} gaps ranked; {len(plan_result['scenarios'])} scenario(s) planned; "
-        f"transition coverage by sessions {100 * (coverage.get('before') or 0):.1f} % → "
-        f"{100 * (coverage.get('after') or 0):.1f} %",
-        err=True,
-    )
-    click.echo(f"summary: {result.out / 'summary.md'}")
-    for name in result.files:
-        if name != "summary.md":
-            click.echo(str(result.out / name))
-
-
 @cli.command(name="audit")
 @workspace_option
 @click.option("--period", help="The period to audit, FIRST..LAST days (default: the recent half of the data).")
@@ -1006,7 +954,7 @@ def _render_summary(summary: dict[str, Any], output_format: str) -> None:
 
 
 # Command groups in their own modules register themselves on `cli` when imported.
-from gapfinder.cli import suite_commands  # noqa: E402, F401
+from gapfinder.cli import run_command, suite_commands  # noqa: E402, F401
 
 
 def main() -> None:

@@ -22,14 +22,34 @@ from gapfinder.cli import (
 __all__ = ["print_problems", "suite_options", "suite_options_from"]
 
 _SHOWN_PROBLEMS = 20
+SUITE_OPTION_NAMES = (
+    "trace_maps",
+    "steps_map",
+    "aliases",
+    "junit_property",
+    "tags",
+    "count_all",
+    "keep_assertions",
+    "strict",
+    "events",
+    "events_maps",
+)
 
 
-def suite_options(func: F) -> F:
-    """The options of how a suite is read, shared by `suite` and `run`."""
+def suite_options(*, map_alias: bool = True) -> Callable[[F], F]:
+    """The options of how a suite is read, shared by `suite` and `run` (where --map is telemetry's)."""
+    flags = ("--trace-map", "--map") if map_alias else ("--trace-map",)
+
+    def apply(func: F) -> F:
+        return _suite_options(func, flags)
+
+    return apply
+
+
+def _suite_options(func: F, trace_map_flags: tuple[str, ...]) -> F:
     decorators: list[Callable[[F], F]] = [
         click.option(
-            "--trace-map",
-            "--map",
+            *trace_map_flags,
             "trace_maps",
             multiple=True,
             metavar="CANONICAL=SOURCE",
@@ -91,13 +111,14 @@ def suite_options(func: F) -> F:
 
 
 def suite_options_from(values: dict[str, Any], *, ts_unit: str | None = None, ts_format: str | None = None) -> Any:
-    """SuiteOptions from the parsed values of `suite_options`."""
+    """SuiteOptions from the parsed values of `suite_options` (the keys are removed from ``values``)."""
     from gapfinder.sources import parse_map_options
     from gapfinder.sources.mapping import CANONICAL_COLUMNS
     from gapfinder.suite import SuiteOptions
     from gapfinder.suite.stage import DEFAULT_TAGS
     from gapfinder.suite.traces import TRACE_COLUMNS
 
+    values = {k: values.pop(k) for k in SUITE_OPTION_NAMES}
     return SuiteOptions(
         mapping=parse_map_options(values["trace_maps"], allowed=TRACE_COLUMNS),
         steps_map=values["steps_map"],
@@ -128,7 +149,7 @@ def print_problems(problems: Sequence[str]) -> None:
 @cli.command()
 @click.argument("traces", nargs=-1, required=True)
 @workspace_option
-@suite_options
+@suite_options()
 @click.option(
     "--ts-unit",
     type=click.Choice(["s", "ms", "us", "ns"]),

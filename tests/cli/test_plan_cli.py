@@ -74,3 +74,51 @@ def test_run_pseudonymizes_when_given_a_key(tmp_path: Path, monkeypatch: object)
     assert all(len(label) == 64 and int(label, 16) >= 0 for label in labels)  # HMAC-SHA256 hex, not the raw ids
     missing = invoke(*args, "--key-env", "GF_UNSET_KEY")
     assert missing.exit_code == 2 and "GF_UNSET_KEY" in missing.stderr
+
+
+def test_run_takes_the_stages_options_and_keeps_implemented_steps(tmp_path: Path) -> None:
+    out = tmp_path / "report"
+    features = tmp_path / "features"
+    features.mkdir()
+    (features / "loans.feature").write_text(
+        "Feature: Loans\n"
+        "  Scenario: Extend\n"
+        '    Given I sign in as "ana"\n'
+        "    When I extend the loan\n"
+        "    And I polish the drill\n"
+        "    Then I see the new date\n"
+        "  @wip\n"
+        "  Scenario: Waitlist\n"
+        '    Given I sign in as "ana"\n'
+        "    When I join the queue\n"
+    )
+    args = [
+        "run",
+        str(SAMPLE / "field"),
+        "--tests",
+        str(features),
+        "--out",
+        str(out),
+        "--budget",
+        "3",
+        "--idle",
+        "20",
+        "--drop",
+        "open_notifications",
+        "--tags",
+        "not @wip",
+    ]
+    first = invoke(*args)
+    assert first.exit_code == 0, first.output
+    assert "1 of 2 tests counted" in first.stderr and "2 unmapped" in first.stderr
+    summary = (out / "summary.md").read_text()
+    assert "Suite: 1 of 2 tests count as exercising (left out: 1 excluded by --tags)" in summary
+    assert "## Tests not read (1)" in summary  # polishing the drill maps to no field event
+    registry = out / "pytest" / "gapfinder_steps.py"
+    text = registry.read_text()
+    implemented = text.replace("    raise NotImplementedError('login')", "    pass  # implemented", 1)
+    assert implemented != text
+    registry.write_text(implemented)
+    again = invoke(*args, "--budget", "4")
+    assert again.exit_code == 0, again.output
+    assert registry.read_text().startswith(implemented)
