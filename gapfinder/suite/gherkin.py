@@ -26,6 +26,7 @@ Step texts are turned into events in this order:
 from __future__ import annotations
 
 import codecs
+import functools
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -51,6 +52,7 @@ _TEMPLATE_PARTS = re.compile(
 )
 
 
+@functools.lru_cache(maxsize=65536)
 def step_template(text: str) -> str:
     """The step text with its values abstracted, so that one rule covers every variant.
 
@@ -101,6 +103,8 @@ class StepPhrases:
 
     def event_for(self, text: str) -> tuple[bool, str | None]:
         """(matched, event): event None with matched True means the step is ignored on purpose."""
+        if not self.rules:
+            return False, None
         for candidate in dict.fromkeys((text.strip(), step_template(text))):
             for pattern, event in self.rules:
                 try:

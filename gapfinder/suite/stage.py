@@ -190,6 +190,7 @@ def read_suite(inputs: Sequence[str | os.PathLike[str]], options: SuiteOptions |
     options = options or SuiteOptions()
     if not inputs:
         raise InputError("no test sources given: pass a folder, .feature files, JUnit XML, a catalog or traces")
+    _tag_filter(options.tags)  # a bad expression fails before any file is read
     phrases = StepPhrases.load(options.steps_map) if options.steps_map else None
     columns = (options.mapping.get("test_id", "test_id"), options.mapping.get("event", "event"))
     files, problems, ignored = discover_suite_files(inputs, columns)
