@@ -89,7 +89,8 @@ def write_repository(root: Path, files: int, seed: int = 3) -> None:
     reports.mkdir(exist_ok=True)
     for n in range(20):
         cases = "".join(f'<testcase classname="t{n}" name="c{k}" time="0.01"/>' for k in range(50))
-        (reports / f"TEST-{n}.xml").write_text(f'<testsuite name="t{n}" timestamp="2026-07-01T09:00:00">{cases}</testsuite>')
+        suite = f'<testsuite name="t{n}" timestamp="2026-07-01T09:00:00">{cases}</testsuite>'
+        (reports / f"TEST-{n}.xml").write_text(suite)
 
 
 def timed(code: str, folder: Path) -> tuple[float, str]:

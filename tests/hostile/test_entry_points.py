@@ -326,7 +326,14 @@ CASES: dict[str, Case] = {
         w,
     ],
     "plugin-run-newer": lambda f, w: ["suite", _csv(f / "r.ndjson", '{"gapfinder_run": 99}\n'), "-w", w],
-    "suite-tags-invalid": lambda f, w: ["suite", "sample_telemetry/tests/suite_traces.csv", "-w", w, "--tags", "@a and"],
+    "suite-tags-invalid": lambda f, w: [
+        "suite",
+        "sample_telemetry/tests/suite_traces.csv",
+        "-w",
+        w,
+        "--tags",
+        "@a and",
+    ],
     "suite-events-missing": lambda f, w: [
         "suite",
         "sample_telemetry/staging_run/pytest_run.ndjson",
