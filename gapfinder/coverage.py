@@ -158,6 +158,12 @@ def load_test_paths(ws: Workspace) -> TestPaths:
     ws.require("suite_tests", hint="run `gapfinder suite TRACES... -w ...` first")
     rows = [(r["test_id"], r["path"]) for r in fetch_dicts(ws.con, "list_counted_test_paths")]
     if not rows:
+        stored = fetch_dicts(ws.con, "list_suite_tests")
+        if stored:
+            raise ConfigError(
+                f"workspace {ws.path}: none of the {len(stored):,} stored tests counts as exercising anything "
+                "(failed, skipped or left out by tags); run `gapfinder suite ... --count-all` to count them"
+            )
         raise ConfigError(f"workspace {ws.path}: the stored suite has no tests; run `gapfinder suite` with some")
     return TestPaths([r[0] for r in rows], [[START, *list(r[1]), END] for r in rows])
 

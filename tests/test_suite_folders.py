@@ -166,3 +166,12 @@ def test_failed_and_skipped_tests_are_left_out_and_coverage_says_so(tmp_path: Pa
     assert result["suite"]["left_out"] == {"failed": 1, "skipped": 1}
     table = CliRunner().invoke(cli, ["coverage", "-w", ws])
     assert "left out" in table.stdout and "failed" in table.stdout
+
+
+def test_a_suite_of_only_failed_tests_is_stored_and_coverage_says_why_it_is_empty(tmp_path: Path, ws: str) -> None:
+    report = tmp_path / "r.xml"
+    report.write_text('<testsuite><testcase name="a"><failure/></testcase></testsuite>')
+    stored = CliRunner().invoke(cli, ["suite", str(report), "-w", ws])
+    assert stored.exit_code == 0 and "none of the 1 test(s) read counts" in stored.stderr
+    coverage = CliRunner().invoke(cli, ["coverage", "-w", ws])
+    assert coverage.exit_code == 2 and "--count-all" in coverage.stderr

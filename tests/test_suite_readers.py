@@ -180,3 +180,58 @@ def test_pytest_plugin_writes_a_trace_that_reads_back(tmp_path: Path) -> None:
         "test_app.py::test_plain": [],
     }
     assert all(t.started is not None and t.finished is not None and t.finished >= t.started for t in report.traces)
+
+
+def test_pretty_printed_otlp_in_the_official_examples_shape() -> None:
+    """Shaped like open-telemetry/opentelemetry-proto's examples/trace.json (pretty-printed, hex ids,
+    integer nanoseconds, scope attributes); the content is our own."""
+    report = read_suite([DATA / "otlp_pretty_trace.json"])
+    (trace,) = report.traces
+    assert trace.test_id == "tests/e2e/test_borrow.py::test_reserve_a_drill"
+    assert trace.steps == ["search_catalogue", "reserve_tool", "check_stock"]
+    assert trace.outcome == "passed" and trace.finished - trace.started == 3.0
+
+
+def test_a_junit_report_lends_its_outcomes_to_the_scenarios_it_ran(tmp_path: Path) -> None:
+    """Cucumber runners write one JUnit case per scenario: class = feature name, name = scenario name."""
+    feature = tmp_path / "features" / "loans.feature"
+    feature.parent.mkdir()
+    feature.write_text((DATA / "loans.feature").read_text())
+    report = tmp_path / "TEST-loans.xml"
+    report.write_text(
+        '<testsuite name="Loans" timestamp="2026-07-01T09:00:00Z">'
+        '<testcase classname="Loans" name="Extend a loan" time="1.5"><failure message="x"/></testcase>'
+        '<testcase classname="Loans" name="Pay the deposit" time="0.5"/>'
+        "</testsuite>"
+    )
+    read = read_suite([tmp_path / "features", report], SuiteOptions(steps_map=str(DATA / "phrases.yaml")))
+    by_name = {(t.name, t.kind): t for t in read.traces}
+    assert read.joined_results == 2
+    assert by_name[("Extend a loan", "gherkin")].outcome == "failed"
+    assert by_name[("Extend a loan", "gherkin")].steps == ["login", "open_notifications", "extend_loan"]
+    deposits = [t.outcome for t in read.traces if t.name == "Pay the deposit"]
+    assert deposits == ["passed", "unknown"]  # the report names the outline once: its first row
+    assert not any(t.kind == "junit" for t in read.traces)  # joined, not listed twice
+    # the outline's second row had no case in the report: it keeps the text's unknown outcome
+    assert sorted(t.outcome for t in read.traces) == ["failed", "passed", "unknown"]
+
+
+def test_the_plugin_merges_pytest_xdist_workers(tmp_path: Path) -> None:
+    pytest.importorskip("xdist")
+    (tmp_path / "test_many.py").write_text(
+        "import pytest\n"
+        "from gapfinder.pytest_plugin import record_step\n"
+        "@pytest.mark.parametrize('n', range(8))\n"
+        "def test_step(n):\n"
+        "    record_step(f'event_{n}')\n"
+    )
+    run_file = tmp_path / "run.ndjson"
+    done = subprocess.run(
+        [sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", "-n", "2", "--gapfinder-trace", str(run_file)],
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+    )
+    assert done.returncode == 0, done.stdout + done.stderr
+    steps = {t.test_id: t.steps for t in read_suite([run_file]).traces}
+    assert steps == {f"test_many.py::test_step[{n}]": [f"event_{n}"] for n in range(8)}

@@ -324,8 +324,8 @@ def load_suite(
             test_rows[key].append(row_value)
     tests_frame = pa.table(test_rows, schema=_TEST_SCHEMA)
     steps_frame = pa.table(step_rows, schema=_STEP_SCHEMA)
-    if not any(r is None for r in test_rows["left_out"]):
-        raise InputError(
+    if report.traces and not any(r is None for r in test_rows["left_out"]):
+        report.problems.append(
             f"none of the {len(report.traces):,} test(s) read counts as exercising anything "
             f"({', '.join(f'{n:,} {r}' for r, n in sorted(left_out.items()))}); pass --count-all to count them anyway, "
             "or --tags to change which tags are left out"

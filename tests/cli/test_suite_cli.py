@@ -86,3 +86,14 @@ def test_errors_are_one_line_exit_2(ws: str, args: list[str], needle: str) -> No
     assert result.exit_code == 2, result.output
     lines = [ln for ln in result.stderr.splitlines() if ln.strip()]
     assert len(lines) == 1 and needle in lines[0], result.stderr
+
+
+def test_a_second_suite_says_what_it_replaced_and_add_adds(ws: str, tmp_path: Path) -> None:
+    first = invoke("suite", str(DATA / "catalog.yaml"), "-w", ws, "--format", "json")
+    assert json.loads(first.stdout)["replaced"] is None
+    second = invoke("suite", str(DATA / "report.xml"), "-w", ws)
+    assert second.exit_code == 0 and "replaced the stored suite of 2 tests" in second.stdout
+    added = invoke("suite", str(DATA / "catalog.yaml"), "-w", ws, "--add", "--format", "json")
+    summary = json.loads(added.stdout)
+    assert summary["test_count"] == 3 + 2
+    assert summary["inputs"] == [str(DATA / "report.xml"), str(DATA / "catalog.yaml")]

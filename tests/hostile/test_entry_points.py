@@ -360,12 +360,6 @@ CASES: dict[str, Case] = {
         "--events",
         "sample_telemetry/staging_run/events.parquet",
     ],
-    "suite-only-failed-tests": lambda f, w: [
-        "suite",
-        _csv(f / "r.xml", '<testsuite><testcase name="a"><failure/></testcase></testsuite>'),
-        "-w",
-        w,
-    ],
     "run-tags-invalid": lambda f, w: [
         "run",
         "sample_telemetry/field",
