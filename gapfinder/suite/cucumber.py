@@ -27,8 +27,8 @@ from typing import Any
 
 from gapfinder.errors import InputError
 from gapfinder.safe_io import read_text
-from gapfinder.suite.gherkin import StepPhrases, step_template
-from gapfinder.suite.model import ReaderReport, TestTrace
+from gapfinder.suite.gherkin import StepPhrases, name_steps, step_template
+from gapfinder.suite.model import ReaderReport, TestTrace, json_lines
 
 __all__ = ["read_cucumber_json", "read_cucumber_messages"]
 
@@ -42,35 +42,6 @@ def _outcome(statuses: list[str]) -> str:
     if any(s in _NOT_RUN for s in statuses) or not statuses:
         return "skipped"
     return "passed"
-
-
-def _named_steps(
-    raw: list[tuple[str, str, str, str]],
-    phrases: StepPhrases,
-    report: ReaderReport,
-    names_by_definition: dict[str, str],
-    keep_assertions: bool,
-) -> tuple[list[str], list[str]]:
-    """(step names, step types) of the steps that ran: (text, definition, type, status) in order."""
-    steps: list[str] = []
-    types: list[str] = []
-    for text, definition, step_type, status in raw:
-        if status != "passed":
-            continue
-        matched, event = phrases.event_for(text)
-        if matched and event is None:
-            report.ignored_phrases[text] = report.ignored_phrases.get(text, 0) + 1
-        elif matched and event is not None:
-            steps.append(event)
-            types.append(step_type)
-        elif step_type == "assertion" and not keep_assertions:
-            report.skip("assertion steps (Then …), which exercise no feature")
-        else:
-            name = names_by_definition.get(definition) or step_template(text)
-            report.unmatched_phrases[name] = report.unmatched_phrases.get(name, 0) + 1
-            steps.append(name)
-            types.append(step_type)
-    return steps, types
 
 
 def _load_json(path: Path) -> Any:
@@ -126,7 +97,7 @@ def read_cucumber_json(
     counts: dict[str, int] = {}
     for key, name, tags, raw in scenarios:
         uri, _, feature_name = key.partition("::")
-        steps, types = _named_steps(raw, phrases, report, names, keep_assertions)
+        steps, types = name_steps(raw, phrases, report, names_by_definition=names, keep_assertions=keep_assertions)
         local = f"{uri}::{name}"
         counts[local] = counts.get(local, 0) + 1
         test_id = local if counts[local] == 1 else f"{local} #{counts[local]}"
@@ -168,15 +139,7 @@ def read_cucumber_messages(
     cases: dict[str, dict[str, Any]] = {}
     runs: dict[str, dict[str, Any]] = {}  # testCaseStarted id -> {case, started, finished, statuses}
     features: dict[str, str] = {}
-    for n, line in enumerate(read_text(path, what="Cucumber Messages file").splitlines(), start=1):
-        if not line.strip():
-            continue
-        try:
-            envelope = json.loads(line)
-        except json.JSONDecodeError as exc:
-            raise InputError(f"{where}:{n}:{exc.colno}: not valid JSON ({exc.msg})") from None
-        if not isinstance(envelope, dict):
-            raise InputError(f"{where}:{n}:1: each line must be a JSON object (a Cucumber Messages envelope)")
+    for n, envelope in json_lines(path, what="Cucumber Messages file", needs="a Cucumber Messages envelope"):
         try:
             if "gherkinDocument" in envelope:
                 document = envelope["gherkinDocument"]
@@ -243,7 +206,7 @@ def read_cucumber_messages(
                 str(pickle_step.get("type")), "action"
             )
             raw.append((str(pickle_step.get("text") or "").strip(), definition, step_type, status))
-        steps, types = _named_steps(raw, phrases, report, names, keep_assertions)
+        steps, types = name_steps(raw, phrases, report, names_by_definition=names, keep_assertions=keep_assertions)
         uri = str(pickle.get("uri") or label or where)
         name = str(pickle.get("name") or "").strip() or "(unnamed scenario)"
         local = f"{uri}::{name}"

@@ -38,7 +38,7 @@ from gapfinder.align import read_yaml_table
 from gapfinder.errors import ConfigError, InputError
 from gapfinder.suite.model import ReaderReport, TestTrace
 
-__all__ = ["StepPhrases", "read_feature_file", "step_template"]
+__all__ = ["StepPhrases", "name_steps", "read_feature_file", "step_template"]
 
 
 MATCH_SECONDS = 0.5
@@ -120,6 +120,40 @@ class StepPhrases:
         return False, None
 
 
+def name_steps(
+    raw: list[tuple[str, str, str, str]],
+    phrases: StepPhrases,
+    report: ReaderReport,
+    *,
+    names_by_definition: dict[str, str] | None = None,
+    keep_assertions: bool = False,
+) -> tuple[list[str], list[str]]:
+    """(step names, step types) of the steps that ran, from (text, step definition, type, status).
+
+    A phrase of the steps map names the event (or null: the step is ignored on purpose); an
+    assertion step exercises nothing; any other step is named by its step definition where one is
+    known, else by its template, and listed as unmatched."""
+    steps: list[str] = []
+    types: list[str] = []
+    for text, definition, step_type, status in raw:
+        if status != "passed":
+            continue
+        matched, event = phrases.event_for(text)
+        if matched and event is None:
+            report.ignored_phrases[text] = report.ignored_phrases.get(text, 0) + 1
+        elif matched and event is not None:
+            steps.append(event)
+            types.append(step_type)
+        elif step_type == "assertion" and not keep_assertions:
+            report.skip("assertion steps (Then …), which exercise no feature")
+        else:
+            name = (names_by_definition or {}).get(definition) or step_template(text)
+            report.unmatched_phrases[name] = report.unmatched_phrases.get(name, 0) + 1
+            steps.append(name)
+            types.append(step_type)
+    return steps, types
+
+
 def _decode(path: Path) -> str:
     """The file's text: the encoding a ``# encoding:`` header names, else UTF-8 (a BOM dropped)."""
     try:
@@ -192,24 +226,11 @@ def read_feature_file(
     report = ReaderReport()
     counts: dict[str, int] = {}
     for pickle in Compiler().compile(document):  # type: ignore[arg-type]
-        steps: list[str] = []
-        step_types: list[str] = []
-        for step in pickle["steps"]:
-            step_text = step["text"].strip()
-            step_type = _STEP_TYPES.get(str(step.get("type")), "action")
-            matched, event = phrases.event_for(step_text)
-            if matched and event is None:
-                report.ignored_phrases[step_text] = report.ignored_phrases.get(step_text, 0) + 1
-            elif matched and event is not None:
-                steps.append(event)
-                step_types.append(step_type)
-            elif step_type == "assertion" and not keep_assertions:
-                report.skip("assertion steps (Then …), which exercise no feature")
-            else:
-                template = step_template(step_text)
-                report.unmatched_phrases[template] = report.unmatched_phrases.get(template, 0) + 1
-                steps.append(template)
-                step_types.append(step_type)
+        raw = [
+            (step["text"].strip(), "", _STEP_TYPES.get(str(step.get("type")), "action"), "passed")
+            for step in pickle["steps"]
+        ]
+        steps, step_types = name_steps(raw, phrases, report, keep_assertions=keep_assertions)
         name = str(pickle["name"]).strip() or "(unnamed scenario)"
         counts[name] = counts.get(name, 0) + 1
         local = name if counts[name] == 1 else f"{name} #{counts[name]}"

@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+import json
+import os
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from typing import Any
 
-__all__ = ["OUTCOMES", "ReaderReport", "TestTrace"]
+__all__ = ["OUTCOMES", "ReaderReport", "TestTrace", "json_lines"]
 
 # How a test ended. "unknown" is a test read from its text (Gherkin, a catalog) with no run result.
 OUTCOMES: tuple[str, ...] = ("passed", "failed", "skipped", "unknown")
@@ -66,3 +69,21 @@ class ReaderReport:
             for phrase, n in theirs.items():
                 bucket[phrase] = bucket.get(phrase, 0) + n
         self.problems.extend(other.problems)
+
+
+def json_lines(path: str | os.PathLike[str], *, what: str, needs: str) -> Iterator[tuple[int, dict[str, Any]]]:
+    """(line number, object) for each non-blank line of a JSON-lines file; a line that is not a JSON
+    object is an error naming the file, line and column (``needs`` says what a line should be)."""
+    from gapfinder.errors import InputError
+    from gapfinder.safe_io import read_text
+
+    for n, line in enumerate(read_text(path, what=what).splitlines(), start=1):
+        if not line.strip():
+            continue
+        try:
+            record = json.loads(line)
+        except json.JSONDecodeError as exc:
+            raise InputError(f"{path}:{n}:{exc.colno}: not valid JSON ({exc.msg})") from None
+        if not isinstance(record, dict):
+            raise InputError(f"{path}:{n}:1: each line must be a JSON object ({needs})")
+        yield n, record

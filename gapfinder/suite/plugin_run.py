@@ -12,12 +12,10 @@ window (``started``/``finished``, epoch seconds) attributes test-run telemetry t
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 from gapfinder.errors import InputError
-from gapfinder.safe_io import read_text
-from gapfinder.suite.model import OUTCOMES, ReaderReport, TestTrace
+from gapfinder.suite.model import OUTCOMES, ReaderReport, TestTrace, json_lines
 
 __all__ = ["RUN_FORMAT_VERSION", "read_plugin_run"]
 
@@ -33,15 +31,7 @@ def read_plugin_run(path: str | Path) -> ReaderReport:
     where = str(path)
     report = ReaderReport()
     seen: set[str] = set()
-    for n, line in enumerate(read_text(path, what="gapfinder run file").splitlines(), start=1):
-        if not line.strip():
-            continue
-        try:
-            record = json.loads(line)
-        except json.JSONDecodeError as exc:
-            raise InputError(f"{where}:{n}:{exc.colno}: not valid JSON ({exc.msg})") from None
-        if not isinstance(record, dict):
-            raise InputError(f"{where}:{n}:1: each line must be a JSON object")
+    for n, record in json_lines(path, what="gapfinder run file", needs="one test"):
         if "gapfinder_run" in record:
             version = record["gapfinder_run"]
             if not isinstance(version, int) or version > RUN_FORMAT_VERSION:
