@@ -11,7 +11,7 @@ import math
 from typing import Any
 
 from gapfinder.quoting import html_text
-from gapfinder.report.markdown import privacy_note
+from gapfinder.report.markdown import privacy_note, suite_sentence
 
 __all__ = ["render_html"]
 
@@ -301,7 +301,8 @@ def render_html(data: dict[str, Any]) -> str:
         f"<style>{STYLE}</style></head><body>",
         "<header><h1>Test coverage against real usage</h1>",
         f"<p>{sessions['count']:,} sessions of {sessions['users']:,} users, {html_text(period)} · "
-        f"{coverage['test_count']} tests · gapfinder {html_text(data['version'])}</p></header><main>",
+        f"{coverage['test_count']} tests · gapfinder {html_text(data['version'])}</p>",
+        f"<p>{html_text(suite_sentence(coverage.get('suite') or {}))}</p></header><main>",
         "<section><h2>How much of real usage the tests exercise</h2>",
         _cards(coverage),
         _coverage_bars(coverage["metrics"], coverage["patterns_mined"]),

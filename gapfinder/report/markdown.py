@@ -7,7 +7,7 @@ from typing import Any
 
 from gapfinder.quoting import markdown_code
 
-__all__ = ["markdown_path", "percent", "privacy_note", "render_markdown"]
+__all__ = ["markdown_path", "percent", "privacy_note", "render_markdown", "suite_sentence"]
 
 
 def percent(x: float | None) -> str:
@@ -37,6 +37,18 @@ def privacy_note(min_users: int, pseudonymized: bool) -> str:
 _pct, _path = percent, markdown_path
 
 
+def suite_sentence(suite: dict[str, Any]) -> str:
+    """Which tests count and how many of their steps were read, in one sentence."""
+    if not suite:
+        return ""
+    left_out = ", ".join(f"{n:,} {reason}" for reason, n in sorted((suite.get("left_out") or {}).items()))
+    return (
+        f"{suite['counted_test_count']:,} of {suite['test_count']:,} stored tests count as exercising"
+        + (f" (left out: {left_out})" if left_out else "")
+        + f"; {suite['mapped_step_count']:,} of {suite['step_count']:,} test steps are mapped to field events."
+    )
+
+
 def render_markdown(data: dict[str, Any]) -> str:
     """The report page for ``report_data(...)`` in Markdown."""
     profile, coverage, gaps, plan, drift = (data[k] for k in ("profile", "coverage", "gaps", "plan", "drift"))
@@ -46,6 +58,8 @@ def render_markdown(data: dict[str, Any]) -> str:
         "",
         f"{sessions['count']:,} sessions of {sessions['users']:,} users, {(reading.get('first_ts') or '')[:10]} to "
         f"{(reading.get('last_ts') or '')[:10]}; {coverage['test_count']} tests; gapfinder {data['version']}.",
+        "",
+        suite_sentence(coverage.get("suite") or {}),
         "",
         "## Coverage",
         "",
