@@ -12,9 +12,9 @@ the privacy floor gets its evidence from the sessions that contain it:
 
 Score = lower bound of the share's interval × risk, where risk is the lower bound of the Wilson
 interval of the path's error rate divided by the baseline error rate, kept between 1 and 4 — a
-path's errors only raise its rank when they are unlikely to be chance. Ranked by score; a gap whose
-path extends a higher-ranked gap's path, or is contained in one with nearly the same sessions
-(within 10 %), is folded under it rather than listed again.
+path's errors only raise its rank when they are unlikely to be chance. Ranked by score, then folded
+into journey families (``fold_families``): gaps that share more than half of their sessions
+(Jaccard) are one row, shown by the longest path within 80 % of the family's sessions.
 """
 
 from __future__ import annotations
@@ -42,12 +42,15 @@ from gapfinder.sql import fetch_dicts, registered
 from gapfinder.stats import wilson_interval
 from gapfinder.workspace import Workspace
 
-__all__ = ["GAP_KINDS", "GapOptions", "find_gaps", "unused_tests"]
+__all__ = ["GAP_KINDS", "GapOptions", "find_gaps", "fold_families", "session_jaccard", "unused_tests"]
 
 GAP_KINDS = ("feature", "transition", "kpath", "pattern")
 MAX_RISK = 4.0
 SEGMENT_LIFT = 1.5
-FOLD_TOLERANCE = 0.10
+# Two gaps whose session sets have a Jaccard index above this are one journey family.
+FAMILY_JACCARD = 0.5
+# A family is shown by its longest member in at least this share of its most common member's sessions.
+LEAD_SHARE = 0.8
 
 
 @dataclass(frozen=True)
@@ -156,59 +159,86 @@ def _contains(longer: tuple[int, ...], shorter: tuple[int, ...]) -> bool:
     return len(longer) > len(shorter) and occurs_in(shorter, longer, None)
 
 
-def _overlap(smaller: dict[int, int], larger: dict[int, int]) -> float:
-    """Share of the first gap's sessions (weighted distinct paths) that also contain the second."""
-    total = sum(smaller.values())
-    return sum(w for p, w in smaller.items() if p in larger) / total if total else 0.0
+SessionSet = tuple[np.ndarray, np.ndarray]  # sorted distinct-path indices, their session counts
 
 
-def _fold(ranked: list[dict[str, Any]], top: int, support: dict[int, dict[int, int]]) -> list[dict[str, Any]]:
-    """Keep one gap per family and fold the rest under it.
+def session_jaccard(a: SessionSet, b: SessionSet) -> float:
+    """Jaccard index of two gaps' session sets (each given by the distinct paths holding it, weighted)."""
+    ids_a, weights_a = a
+    ids_b, weights_b = b
+    shared = int(weights_a[np.isin(ids_a, ids_b, assume_unique=True)].sum())
+    union = int(weights_a.sum()) + int(weights_b.sum()) - shared
+    return shared / union if union else 0.0
 
-    A gap joins the family of an earlier (better-ranked) gap when
-    - its path contains a path already listed or folded: it cannot be tested without that path;
-    - its path is contained in a listed path and has at most 10 % more sessions: it says nothing new;
-    - both are mined patterns ending at the same event and 90 % of its sessions also contain the
-      listed one: the same journey with an optional step more or less.
-    Each family is then shown through its most specific member (the longest path within 10 % of
-    the family's best sessions), so the listing names journeys rather than single events.
+
+def _lead(members: list[dict[str, Any]]) -> dict[str, Any]:
+    """The member that names the family: the longest path in at least LEAD_SHARE of the sessions of
+    the family's most common member."""
+    best = max(m["sessions"] for m in members)
+    close = [m for m in members if m["sessions"] >= LEAD_SHARE * best]
+    return max(close, key=lambda m: (len(m["_ids"]), m["score"], m["kind"] == "pattern", m["path"]))
+
+
+def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, SessionSet]) -> list[dict[str, Any]]:
+    """One row per journey: gaps that ride on largely the same sessions form one family.
+
+    In rank order, a gap joins an earlier family when its path contains a member's path (it cannot
+    be tested without it) or when it shares more than half of its sessions with the family's lead
+    (Jaccard > FAMILY_JACCARD); otherwise it starts a family. A family is shown by its lead (the
+    longest member within LEAD_SHARE of the sessions of its most common member), ranked by its
+    best member's score, with the others folded under it. Leads that still share more than half of
+    their sessions are merged, so no two listed gaps do.
     """
-    kept: list[dict[str, Any]] = []
-    known: list[tuple[tuple[int, ...], dict[str, Any]]] = []
+    families: list[list[dict[str, Any]]] = []
+    leads: list[dict[str, Any]] = []
+    known: list[tuple[tuple[int, ...], int]] = []
     for gap in ranked:
-        ids = gap["_ids"]
-        parent = next((owner for path, owner in known if _contains(ids, path)), None)
-        if parent is None:
-            parent = next(
+        ids, own = gap["_ids"], sets[gap["_index"]]
+        home = next((f for path, f in known if _contains(ids, path)), None)
+        if home is None:
+            home = next(
+                (f for f, lead in enumerate(leads) if session_jaccard(own, sets[lead["_index"]]) > FAMILY_JACCARD),
+                None,
+            )
+        if home is not None:
+            families[home].append(gap)
+            leads[home] = _lead(families[home])
+        elif len(families) < 3 * top:  # room for merges below; later gaps could not be listed anyway
+            families.append([gap])
+            leads.append(gap)
+            home = len(families) - 1
+        else:
+            continue
+        known.append((ids, home))
+    merged = True
+    while merged:
+        merged = False
+        for i in range(1, len(families)):
+            j = next(
                 (
-                    other
-                    for other in kept
-                    if (_contains(other["_ids"], ids) and gap["sessions"] <= (1 + FOLD_TOLERANCE) * other["sessions"])
-                    or (
-                        gap["kind"] == other["kind"] == "pattern"
-                        and ids[-1] == other["_ids"][-1]
-                        and _overlap(support[gap["_index"]], support[other["_index"]]) >= 1 - FOLD_TOLERANCE
-                    )
+                    j
+                    for j in range(i)
+                    if session_jaccard(sets[leads[i]["_index"]], sets[leads[j]["_index"]]) > FAMILY_JACCARD
                 ),
                 None,
             )
-        if parent is not None:
-            parent["_members"].append(gap)
-            known.append((ids, parent))
-        elif len(kept) < top:
-            gap["_members"] = []
-            kept.append(gap)
-            known.append((ids, gap))
+            if j is not None:
+                families[j].extend(families.pop(i))
+                leads.pop(i)
+                leads[j] = _lead(families[j])
+                merged = True
+                break
     shown = []
-    for family in kept:
-        members = [family, *family["_members"]]
-        close = [m for m in members if m["sessions"] >= (1 - FOLD_TOLERANCE) * family["sessions"]]
-        lead = max(close, key=lambda m: (len(m["_ids"]), m["score"], m["kind"] == "pattern"))
+    for members, lead in zip(families[:top], leads[:top], strict=False):
         entry = {k: v for k, v in lead.items() if not k.startswith("_")}
-        entry["score"] = family["score"]
+        entry["score"] = members[0]["score"]
+        union = np.unique(np.concatenate([sets[m["_index"]][0] for m in members]))
+        weights = {int(i): int(w) for m in members for i, w in zip(*sets[m["_index"]], strict=True)}
+        entry["family_sessions"] = sum(weights[int(i)] for i in union)
         entry["folded"] = [
             {"kind": m["kind"], "path": m["path"], "sessions": m["sessions"]} for m in members if m is not lead
         ]
+        entry["_index"] = lead["_index"]
         shown.append(entry)
     return shown
 
@@ -353,13 +383,18 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         }
         gap["reason"] = _reason(gap, _KIND_WORDS)
         ranked.append(gap)
-    support: dict[int, dict[int, int]] = {}
-    for candidate, seq in zip(which.tolist(), sequence.tolist(), strict=True):
-        support.setdefault(candidate, {})[seq] = int(db.weights[seq])
+    order = np.lexsort((sequence, which))
+    which, sequence = which[order], sequence[order]
+    bounds = np.searchsorted(which, np.arange(len(pool) + 1))
+    sets: dict[int, SessionSet] = {
+        index: (sequence[bounds[index] : bounds[index + 1]], db.weights[sequence[bounds[index] : bounds[index + 1]]])
+        for index in range(len(pool))
+    }
     ranked.sort(key=lambda g: (-g["score"], g["k"], g["path"]))
-    listed = _fold(ranked, options.top, support)
+    listed = fold_families(ranked, options.top, sets)
     for rank, gap in enumerate(listed, start=1):
         gap["rank"] = rank
+        gap.pop("_index")
     result["gaps"] = listed
     return result
 

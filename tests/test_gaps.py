@@ -94,3 +94,49 @@ def test_unused_holds_back_journeys_of_few_users(profiled: Path, tmp_path: Path)
     assert floored["t_tune"]["sessions"] is None and "held back" in floored["t_tune"]["reason"]
     assert floored["t_never"]["sessions"] == 0
     assert open_rows["t_tune"]["sessions"] == 1 and open_rows["t_tune"]["users"] == 1
+
+
+def _sets_of_listed(ws_path: Path, gaps: list[dict]) -> list[tuple]:
+    """The session set of each listed gap, recomputed from the workspace."""
+    import numpy as np
+
+    from gapfinder.mining import containing_sequences
+    from gapfinder.patterns import load_sequences
+
+    with Workspace(ws_path, read_only=True) as ws:
+        names = feature_names(ws.con)
+        ids = {n: i for i, n in enumerate(names)}
+        db = load_sequences(ws.con, with_users=False)
+        gap_bound = json.loads(
+            ws.con.execute("SELECT value FROM meta WHERE key = 'patterns_parameters'").fetchone()[0]
+        ).get("max_gap")
+    paths = [tuple(ids[e] for e in g["path"]) for g in gaps]
+    patterns = [g["kind"] == "pattern" for g in gaps]
+    which, sequence = containing_sequences(
+        db, paths, max_gaps=[gap_bound if p else 0 for p in patterns], framed=[not p for p in patterns]
+    )
+    out = []
+    for n in range(len(gaps)):
+        seqs = np.unique(sequence[which == n])
+        out.append((seqs, db.weights[seqs]))
+    return out
+
+
+def test_no_two_listed_gaps_share_more_than_half_their_sessions(demo_gaps: dict, suite_workspace: Path) -> None:
+    from gapfinder.gaps import session_jaccard
+
+    sets = _sets_of_listed(suite_workspace, demo_gaps["gaps"])
+    for i in range(len(sets)):
+        assert int(sets[i][1].sum()) == demo_gaps["gaps"][i]["sessions"]
+        for j in range(i):
+            pair = (demo_gaps["gaps"][i]["path"], demo_gaps["gaps"][j]["path"])
+            assert session_jaccard(sets[i], sets[j]) <= 0.5, pair
+
+
+def test_each_listed_gap_is_its_familys_longest_common_member(demo_gaps: dict) -> None:
+    for gap in demo_gaps["gaps"]:
+        members = [gap, *gap["folded"]]
+        best = max(m["sessions"] for m in members)
+        assert gap["sessions"] >= 0.8 * best
+        assert all(len(m["path"]) <= len(gap["path"]) for m in members if m["sessions"] >= 0.8 * best)
+        assert gap["family_sessions"] >= best
