@@ -32,6 +32,7 @@ from gapfinder.errors import ConfigError, InputError
 from gapfinder.mining import SequenceDatabase, containing_sequences
 from gapfinder.paths import feature_names
 from gapfinder.patterns import profile_included_automated
+from gapfinder.periods import Period, split_in_halves
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts
 from gapfinder.stats import difference_interval, jensen_shannon_distance, two_proportion_z_test
@@ -41,22 +42,6 @@ __all__ = ["AuditOptions", "Period", "audit", "parse_period"]
 
 SEGMENTS = ("app_version", "platform")
 START, END = "START", "END"
-
-
-@dataclass(frozen=True)
-class Period:
-    """A half-open window of session starts [start, end); None is open."""
-
-    start: datetime | None
-    end: datetime | None
-    label: str
-
-    def as_dict(self) -> dict[str, Any]:
-        return {
-            "label": self.label,
-            "from": self.start.date().isoformat() if self.start else None,
-            "to": (self.end - timedelta(days=1)).date().isoformat() if self.end else None,
-        }
 
 
 def parse_period(text: str, option: str = "--period") -> Period:
@@ -144,9 +129,8 @@ def _default_periods(con: duckdb.DuckDBPyConnection) -> tuple[Period, Period]:
     row = fetch_dicts(con, "summarize_session_window", include_automated=profile_included_automated(con))[0]
     if not row["sessions"]:
         raise ConfigError("the workspace has no sessions to audit")
-    first, last = row["first_start"], row["last_start"]
-    middle = first + (last - first) / 2
-    return Period(middle, None, "recent half"), Period(None, middle, "earlier half")
+    earlier, recent = split_in_halves(row["first_start"], row["last_start"])
+    return recent, earlier
 
 
 def _exercised(ws: Workspace) -> tuple[set[tuple[str, ...]], set[tuple[str, ...]], list[tuple[str, list[str]]]]:

@@ -7,7 +7,9 @@ the privacy floor gets its evidence from the sessions that contain it:
 
 - ``share``: sessions with the path / all sessions, with a Wilson score interval (95 %);
 - ``error_rate``: sessions with the path that had an error, against the baseline of all sessions;
-- ``trend``: its share in the recent half of the window against the earlier half;
+- ``trend``: its share in the recent half of the data against the earlier half, the halves cut at a
+  midnight (UTC, ``periods.split_in_halves``): ``new`` when absent or under the privacy floor
+  before, ``rising``/``falling`` with the ratio and its interval;
 - ``segments``: app versions or platforms where it is at least 1.5 times as common as overall.
 
 Score = lower bound of the share's interval × risk, where risk is the lower bound of the Wilson
@@ -19,6 +21,7 @@ into journey families (``fold_families``): gaps that share more than half of the
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any
 
@@ -37,9 +40,10 @@ from gapfinder.errors import ConfigError
 from gapfinder.mining import containing_sequences
 from gapfinder.paths import feature_names
 from gapfinder.patterns import load_sequences, profile_included_automated
+from gapfinder.periods import Period, split_in_halves
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_dicts, registered
-from gapfinder.stats import wilson_interval
+from gapfinder.stats import ratio_interval, wilson_interval
 from gapfinder.workspace import Workspace
 
 __all__ = ["GAP_KINDS", "GapOptions", "find_gaps", "fold_families", "session_jaccard", "unused_tests"]
@@ -243,16 +247,48 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
     return shown
 
 
-def _trend(recent: int, sessions: int, recent_total: int, total: int) -> dict[str, Any]:
+def _trend(
+    recent: int,
+    sessions: int,
+    recent_total: int,
+    total: int,
+    *,
+    earlier_users: int,
+    min_users: int,
+    since: str | None,
+    confidence: float = 0.95,
+) -> dict[str, Any]:
+    """How the gap's share of sessions moved from the earlier half to the recent one.
+
+    ``new``: absent before, or seen by fewer than ``min_users`` users before; ``rising``/``falling``:
+    the ratio of its recent to its earlier share is at least 1.25 (at most 0.8) and its 95 % interval
+    (Katz's log interval) excludes 1; otherwise ``steady``."""
     earlier, earlier_total = sessions - recent, total - recent_total
     recent_share = recent / recent_total if recent_total else 0.0
     earlier_share = earlier / earlier_total if earlier_total else 0.0
-    if earlier_share == 0:
-        label, ratio = ("new" if recent_share > 0 else "steady"), None
-    else:
-        ratio = recent_share / earlier_share
-        label = "rising" if ratio >= 1.25 else "falling" if ratio <= 0.8 else "steady"
-    return {"label": label, "recent_share": recent_share, "earlier_share": earlier_share, "ratio": ratio}
+    out: dict[str, Any] = {
+        "label": "steady",
+        "recent_share": recent_share,
+        "earlier_share": earlier_share,
+        "ratio": None,
+        "ratio_low": None,
+        "ratio_high": None,
+        "since": since,
+    }
+    if not recent_total or not earlier_total:
+        return out  # one half is empty: nothing to compare
+    if recent and earlier_users < min_users:
+        out["label"] = "new"
+        return out
+    if earlier == 0:
+        return out
+    ratio, low, high = ratio_interval(recent, recent_total, earlier, earlier_total, confidence=confidence)
+    out.update(ratio=ratio, ratio_low=None if math.isnan(low) else low, ratio_high=None if math.isnan(high) else high)
+    if ratio >= 1.25 and out["ratio_low"] is not None and out["ratio_low"] > 1:
+        out["label"] = "rising"
+    elif ratio <= 0.8 and (recent == 0 or (out["ratio_high"] is not None and out["ratio_high"] < 1)):
+        out["label"] = "falling"
+    return out
 
 
 def _reason(gap: dict[str, Any], names_of_kind: dict[str, str]) -> str:
@@ -265,9 +301,14 @@ def _reason(gap: dict[str, Any], names_of_kind: dict[str, str]) -> str:
         parts.append(f"errors in {100 * gap['error_rate']:.1f} % of these sessions, {gap['error_lift']:.1f}× the usual")
     trend = gap["trend"]
     if trend["label"] == "new":
-        parts.append("new: seen only in the recent half of the period")
+        parts.append(f"new since {trend['since']}: absent before, or taken by fewer users than the privacy floor")
     elif trend["label"] in ("rising", "falling"):
-        parts.append(f"{trend['label']} ({trend['ratio']:.1f}× its earlier share)")
+        interval = (
+            f", 95 % interval {trend['ratio_low']:.2f}–{trend['ratio_high']:.2f}×"
+            if trend["ratio_low"] is not None and trend["ratio_high"] is not None
+            else ""
+        )
+        parts.append(f"{trend['label']}: {trend['ratio']:.2f}× its share before {trend['since']}{interval}")
     if gap["segments"]:
         top = gap["segments"][0]
         parts.append(f"concentrated on {top['segment']} {top['value']} ({top['lift']:.1f}×)")
@@ -299,8 +340,16 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
 
     con = ws.con
     include_automated = profile_included_automated(con)
-    baseline = fetch_dicts(con, "summarize_gap_baseline", include_automated=include_automated)[0]
+    window = fetch_dicts(con, "summarize_session_window", include_automated=include_automated)[0]
+    if window["sessions"]:
+        earlier_half, recent_half = split_in_halves(window["first_start"], window["last_start"])
+    else:
+        earlier_half = recent_half = Period(None, None, "")
+    baseline = fetch_dicts(
+        con, "summarize_gap_baseline", midpoint=recent_half.start, include_automated=include_automated
+    )[0]
     total = int(baseline["sessions"] or 0)
+    recent_total = int(baseline["recent_sessions"] or 0)
     base_error = (baseline["error_sessions"] or 0) / total if total else 0.0
     names = feature_names(con)
     result: dict[str, Any] = {
@@ -313,6 +362,10 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         "min_users": options.min_users,
         "tests": len(tests.test_ids),
         "score": "lower bound of the share's 95 % interval × error risk (1–4)",
+        "periods": {
+            "earlier": {**earlier_half.as_dict(), "sessions": total - recent_total},
+            "recent": {**recent_half.as_dict(), "sessions": recent_total},
+        },
     }
     if not pool or total == 0:
         result["gaps"] = []
@@ -328,7 +381,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         evidence = {
             r["candidate"]: r
             for r in fetch_dicts(
-                con, "list_gap_evidence", midpoint=baseline["midpoint"], include_automated=include_automated
+                con, "list_gap_evidence", midpoint=recent_half.start, include_automated=include_automated
             )
         }
         segment_rows = fetch_dicts(con, "list_gap_segments", include_automated=include_automated)
@@ -374,7 +427,15 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             "error_rate": error_rate,
             "error_lift": error_rate / base_error if base_error > 0 else None,
             "risk": risk,
-            "trend": _trend(int(ev["recent_sessions"]), sessions, int(baseline["recent_sessions"] or 0), total),
+            "trend": _trend(
+                int(ev["recent_sessions"]),
+                sessions,
+                recent_total,
+                total,
+                earlier_users=int(ev["earlier_users"]),
+                min_users=options.min_users,
+                since=recent_half.as_dict()["from"],
+            ),
             "segments": sorted(segments_of.get(index, []), key=lambda s: -s["lift"])[:3],
             "score": low * risk,
             "folded": [],

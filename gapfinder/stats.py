@@ -9,6 +9,8 @@ methods", Statistics in Medicine 17 (1998), 857–872 (method 3, the score inter
 R. G. Newcombe, "Interval estimation for the difference between independent proportions:
 comparison of eleven methods", Statistics in Medicine 17 (1998), 873–890 (method 10, the hybrid
 score interval built from two Wilson intervals).
+D. Katz, J. Baptista, S. P. Azen and M. C. Pike, "Obtaining confidence intervals for the risk ratio
+in cohort studies", Biometrics 34 (1978), 469–474 (the log interval for a ratio of proportions).
 J. Lin, "Divergence measures based on the Shannon entropy", IEEE Transactions on Information
 Theory 37 (1991), 145–151 (the Jensen–Shannon divergence).
 """
@@ -19,7 +21,13 @@ import math
 from collections.abc import Sequence
 from statistics import NormalDist
 
-__all__ = ["difference_interval", "jensen_shannon_distance", "two_proportion_z_test", "wilson_interval"]
+__all__ = [
+    "difference_interval",
+    "jensen_shannon_distance",
+    "ratio_interval",
+    "two_proportion_z_test",
+    "wilson_interval",
+]
 
 
 def wilson_interval(successes: int, trials: int, *, confidence: float = 0.95) -> tuple[float, float]:
@@ -103,3 +111,28 @@ def difference_interval(x1: int, n1: int, x2: int, n2: int, *, confidence: float
     l2, u2 = wilson_interval(x2, n2, confidence=confidence)
     d = p1 - p2
     return d - math.sqrt((p1 - l1) ** 2 + (u2 - p2) ** 2), d + math.sqrt((u1 - p1) ** 2 + (p2 - l2) ** 2)
+
+
+def ratio_interval(
+    count_a: int, total_a: int, count_b: int, total_b: int, *, confidence: float = 0.95
+) -> tuple[float, float, float]:
+    """(ratio, low, high): the ratio of two proportions (a / b) with Katz's log interval.
+
+    Returns nan for the interval when either count is zero (the log interval is undefined there).
+
+    Examples
+    --------
+    >>> ratio, low, high = ratio_interval(30, 100, 15, 100)
+    >>> round(ratio, 2), round(low, 2), round(high, 2)
+    (2.0, 1.15, 3.48)
+    """
+    if not (0 <= count_a <= total_a and 0 <= count_b <= total_b) or total_a == 0 or total_b == 0:
+        raise ValueError(f"need 0 <= count <= total > 0, got {count_a}/{total_a} and {count_b}/{total_b}")
+    if count_b == 0:
+        return math.inf if count_a else math.nan, math.nan, math.nan
+    ratio = (count_a / total_a) / (count_b / total_b)
+    if count_a == 0:
+        return ratio, math.nan, math.nan
+    z = NormalDist().inv_cdf(0.5 + confidence / 2)
+    spread = z * math.sqrt(1 / count_a - 1 / total_a + 1 / count_b - 1 / total_b)
+    return ratio, ratio * math.exp(-spread), ratio * math.exp(spread)
