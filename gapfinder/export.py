@@ -110,14 +110,19 @@ def _group_of(row: dict[str, Any]) -> str:
 
 
 def _evidence_lines(row: dict[str, Any]) -> list[str]:
-    lift = f", {row['error_lift']:.1f}× the usual error rate" if row.get("error_lift") else ""
+    failing = row.get("failing_step")
+    where = (
+        f"; {failing} fails most, {row['error_lift']:.1f}× its rate elsewhere"
+        if failing and row.get("error_lift")
+        else ""
+    )
     return [
         f"Gap #{', #'.join(str(g) for g in row['gaps'])}: {' > '.join(row['gap_path'])}",
         f"Sessions: {row['sessions']:,}; users: {row['users']:,}; share {100 * row['share']:.2f} % "
         f"(95 % interval {100 * row['share_low']:.2f}–{100 * row['share_high']:.2f} %)",
-        f"Errors in {100 * row['error_rate']:.1f} % of those sessions{lift}",
+        f"A step of the path itself failed in {100 * row['error_rate']:.1f} % of those sessions{where}",
         f"Why: {row['reason']}",
-        f"Adds {100 * row['gain_share']:.2f} % of the plan objective; scenario probability {row['probability']:.4g}",
+        f"Adds {100 * row['gain_share']:.2f} % of the plan objective (field occurrences of untested items)",
     ]
 
 
@@ -301,13 +306,14 @@ def _csv_file(plan: dict[str, Any]) -> str:
         "share_high",
         "error_rate",
         "error_lift",
+        "failing_step",
         "reason",
     ]
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(columns)
     for row in plan["scenarios"]:
-        writer.writerow([json.dumps(row[c]) if isinstance(row[c], list) else row[c] for c in columns])
+        writer.writerow([json.dumps(row.get(c)) if isinstance(row.get(c), list) else row.get(c) for c in columns])
     return buffer.getvalue()
 
 

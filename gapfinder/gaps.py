@@ -38,6 +38,7 @@ from gapfinder.coverage import (
 )
 from gapfinder.errors import ConfigError
 from gapfinder.mining import containing_sequences
+from gapfinder.occurrences import first_occurrences
 from gapfinder.paths import feature_names
 from gapfinder.patterns import load_sequences, profile_included_automated
 from gapfinder.periods import Period, split_in_halves
@@ -247,6 +248,95 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
     return shown
 
 
+def _occurrence_frame(
+    pool: list[_Candidate],
+    which: np.ndarray,
+    path_ids: np.ndarray,
+    starts: np.ndarray,
+    sequence: np.ndarray,
+    positions: np.ndarray,
+    after: np.ndarray,
+) -> pa.Table:
+    """(candidate, path_id, step_positions, event_positions, after_position) per matched distinct path."""
+    lengths = (starts[sequence + 1] - starts[sequence]).astype(np.int64)
+    step_rows: list[list[int | None]] = []
+    event_rows: list[list[int]] = []
+    for row, candidate in enumerate(which.tolist()):
+        k = len(pool[candidate].path)
+        steps = [int(p) if 1 <= p <= lengths[row] else None for p in positions[row, :k].tolist()]
+        step_rows.append(steps)
+        event_rows.append([p for p in steps if p is not None])
+    return pa.table(
+        {
+            "candidate": pa.array(which, pa.int64()),
+            "path_id": pa.array(path_ids, pa.int64()),
+            "step_positions": pa.array(step_rows, pa.list_(pa.int32())),
+            "event_positions": pa.array(event_rows, pa.list_(pa.int32())),
+            "after_position": pa.array([int(a) if a > 0 else None for a in after.tolist()], pa.int32()),
+        }
+    )
+
+
+def _pinned_errors(
+    path: tuple[int, ...],
+    ev: dict[str, Any],
+    totals: dict[int, tuple[int, int]],
+    event_error_rate: float,
+    names: list[str],
+    confidence: float,
+) -> dict[str, Any]:
+    """Errors on the path's own steps and on the step right after, each against the same events'
+    rate elsewhere; the risk factor comes from the step whose failures are least likely chance."""
+    sessions = int(ev["sessions"])
+    steps: list[dict[str, Any]] = []
+    for q, event in enumerate(path[:7]):
+        if event in (0, 1):  # START and END are no events
+            continue
+        failed = int(ev[f"step_errors_{q + 1}"])
+        occurrences, errors = totals.get(event, (0, 0))
+        rest = occurrences - sessions
+        elsewhere = (errors - failed) / rest if rest > 0 else event_error_rate
+        rate_low, rate_high = wilson_interval(failed, sessions, confidence=confidence)
+        steps.append(
+            {
+                "event": names[event],
+                "failed_sessions": failed,
+                "rate": failed / sessions if sessions else 0.0,
+                "rate_low": rate_low,
+                "rate_high": rate_high,
+                "rate_elsewhere": elsewhere,
+                "lift": (failed / sessions) / elsewhere if elsewhere > 0 and sessions else None,
+                "risk": (rate_low / elsewhere) if elsewhere > 0 else (MAX_RISK if rate_low > 0 else 1.0),
+            }
+        )
+    next_sessions, next_failed = int(ev["next_sessions"]), int(ev["next_error_sessions"])
+    next_low, next_high = wilson_interval(next_failed, next_sessions, confidence=confidence)
+    next_event = ev.get("next_failing_event_id")
+    # what the events that came next fail at anywhere (their mix differs from gap to gap)
+    expected = float(ev["next_expected_rate"]) if ev.get("next_expected_rate") is not None else event_error_rate
+    after: dict[str, Any] = {
+        "event": names[int(next_event)] if next_event is not None else None,
+        "sessions": next_sessions,
+        "failed_sessions": next_failed,
+        "rate": next_failed / next_sessions if next_sessions else 0.0,
+        "rate_low": next_low,
+        "rate_high": next_high,
+        "rate_elsewhere": expected,
+        "risk": next_low / expected if expected > 0 else 1.0,
+    }
+    worst = max(steps, key=lambda st: (st["risk"], st["rate"]), default=None)
+    risk = max([float(st["risk"]) for st in steps] + [float(after["risk"]), 1.0])
+    own = int(ev["own_error_sessions"])
+    return {
+        "error_rate": own / sessions if sessions else 0.0,
+        "error_lift": worst["lift"] if worst is not None else None,
+        "failing_step": worst if worst is not None and worst["failed_sessions"] else None,
+        "step_errors": steps,
+        "next_step_errors": after,
+        "risk": min(MAX_RISK, risk),
+    }
+
+
 def _trend(
     recent: int,
     sessions: int,
@@ -297,8 +387,18 @@ def _reason(gap: dict[str, Any], names_of_kind: dict[str, str]) -> str:
         f"{what} in {100 * gap['share']:.1f} % of sessions ({gap['sessions']:,} sessions, {gap['users']:,} users; "
         f"95 % interval {100 * gap['share_low']:.1f}–{100 * gap['share_high']:.1f} %) and no test exercises it"
     ]
-    if gap["risk"] > 1:
-        parts.append(f"errors in {100 * gap['error_rate']:.1f} % of these sessions, {gap['error_lift']:.1f}× the usual")
+    worst, after = gap["failing_step"], gap["next_step_errors"]
+    if worst is not None and worst["risk"] > 1:
+        parts.append(
+            f"{worst['event']} fails in {100 * worst['rate']:.1f} % of these sessions "
+            f"(95 % interval {100 * worst['rate_low']:.1f}–{100 * worst['rate_high']:.1f} %), "
+            + (f"{worst['lift']:.1f}× its rate elsewhere" if worst["lift"] else "and it never fails elsewhere")
+        )
+    if after["risk"] > 1 and after["event"] is not None:
+        parts.append(
+            f"the step right after fails in {100 * after['rate']:.1f} % of these sessions (most often "
+            f"{after['event']}), {after['rate'] / after['rate_elsewhere']:.1f}× what those next events fail at overall"
+        )
     trend = gap["trend"]
     if trend["label"] == "new":
         parts.append(f"new since {trend['since']}: absent before, or taken by fewer users than the privacy floor")
@@ -326,6 +426,12 @@ _KIND_WORDS = {
 def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any]:
     """The ranked gaps between real usage and the stored suite (see the module docstring)."""
     options = options or GapOptions()
+    ws.require("sessions", hint="run `gapfinder profile TELEMETRY -w ...` first")
+    if "error_positions" not in {r[0] for r in ws.con.execute("DESCRIBE sessions").fetchall()}:
+        raise ConfigError(
+            f"workspace {ws.path} was profiled by an earlier gapfinder that did not keep where errors happen; "
+            "run `gapfinder profile` again"
+        )
     tests = load_test_paths(ws)
     items = load_field_items(ws)
     exercised, pattern_exercised = exercised_masks(tests, items, max_gap=options.max_gap)
@@ -376,8 +482,28 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         db, [c.path for c in pool], max_gaps=[c.gap for c in pool], framed=[c.framed for c in pool]
     )
     assert db.path_ids is not None
-    frame = pa.table({"candidate": pa.array(which, pa.int64()), "path_id": pa.array(db.path_ids[sequence], pa.int64())})
-    with registered(con, gap_paths=frame):
+    positions, after = first_occurrences(
+        db,
+        [c.path for c in pool],
+        max_gaps=[c.gap for c in pool],
+        framed=[c.framed for c in pool],
+        which=which,
+        sequence=sequence,
+    )
+    frame = _occurrence_frame(pool, which, db.path_ids[sequence], db.starts, sequence, positions, after)
+    totals = {
+        int(r["event_id"]): (int(r["occurrences"]), int(r["errors"]))
+        for r in fetch_dicts(con, "list_event_error_totals", include_automated=include_automated)
+    }
+    all_occurrences = sum(o for o, _ in totals.values())
+    event_error_rate = sum(e for _, e in totals.values()) / all_occurrences if all_occurrences else 0.0
+    rates = pa.table(
+        {
+            "event_id": pa.array(list(totals), pa.int32()),
+            "rate": pa.array([e / o if o else 0.0 for o, e in totals.values()], pa.float64()),
+        }
+    )
+    with registered(con, gap_paths=frame, event_rates=rates):
         evidence = {
             r["candidate"]: r
             for r in fetch_dicts(
@@ -410,11 +536,9 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         ev = evidence.get(index)
         if not ev:
             continue
-        sessions, errors = int(ev["sessions"]), int(ev["error_sessions"])
+        sessions = int(ev["sessions"])
         low, high = wilson_interval(sessions, total, confidence=options.confidence)
-        error_rate = errors / sessions if sessions else 0.0
-        error_low, _ = wilson_interval(errors, sessions, confidence=options.confidence)
-        risk = min(MAX_RISK, max(1.0, error_low / base_error)) if base_error > 0 else 1.0
+        pinned = _pinned_errors(cand.path, ev, totals, event_error_rate, names, options.confidence)
         gap: dict[str, Any] = {
             "kind": cand.kind,
             "path": [names[e] for e in cand.path],
@@ -424,9 +548,8 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             "share": sessions / total,
             "share_low": low,
             "share_high": high,
-            "error_rate": error_rate,
-            "error_lift": error_rate / base_error if base_error > 0 else None,
-            "risk": risk,
+            **pinned,
+            "session_error_rate": int(ev["error_sessions"]) / sessions if sessions else 0.0,
             "trend": _trend(
                 int(ev["recent_sessions"]),
                 sessions,
@@ -437,7 +560,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
                 since=recent_half.as_dict()["from"],
             ),
             "segments": sorted(segments_of.get(index, []), key=lambda s: -s["lift"])[:3],
-            "score": low * risk,
+            "score": low * pinned["risk"],
             "folded": [],
             "_ids": cand.path,
             "_index": index,

@@ -325,6 +325,7 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
                 "share_high": gap["share_high"],
                 "error_rate": gap["error_rate"],
                 "error_lift": gap["error_lift"],
+                "failing_step": (gap.get("failing_step") or {}).get("event"),
                 "reason": gap["reason"],
             }
         )

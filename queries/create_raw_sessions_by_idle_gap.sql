@@ -2,10 +2,11 @@
 -- events where the gap since the previous event exceeds $idle_us microseconds (a gap exactly
 -- equal stays in the session). Events with equal timestamps are ordered by event name, then
 -- outcome, so results do not depend on file order. Each session gets its ordered path of event
--- ids (cut at $max_events when that is positive), counts, errors, time span and the segment values
--- at its first event. With $collapse_repeats an event equal to the one before it in the same
--- session is dropped. The path is rebuilt from (position << 16 | event id) sorted, which is much
--- cheaper than an ordered aggregate; features are limited to 65,534 for this reason.
+-- ids (cut at $max_events when that is positive), the positions in it (from 1) whose event failed,
+-- counts, errors, time span and the segment values at its first event. With $collapse_repeats an
+-- event equal to the one before it in the same session is dropped. The path is rebuilt from
+-- (position << 17 | failed << 16 | event id) sorted, which is much cheaper than an ordered
+-- aggregate; features are limited to 65,534 for this reason.
 -- Reads mapped_source, features, user_keys.
 -- Parameters: $idle_us, $collapse_repeats, $max_events, $noise_events, $error_outcomes.
 CREATE OR REPLACE TEMP TABLE raw_sessions AS
@@ -50,7 +51,7 @@ grouped AS (
         max(ts) AS ended_at,
         count(*)::INTEGER AS event_count,
         count(*) FILTER (WHERE is_error)::INTEGER AS error_count,
-        list_sort(list((seq << 16) | event_id)) AS packed,
+        list_sort(list((seq << 17) | (is_error::BIGINT << 16) | event_id)) AS packed,
         any_value(app_version) FILTER (WHERE is_start = 1) AS app_version,
         any_value(platform) FILTER (WHERE is_start = 1) AS platform
     FROM numbered
@@ -68,6 +69,13 @@ SELECT
         CASE WHEN $max_events > 0 THEN packed[1:$max_events] ELSE packed END,
         lambda x: (x & 65535)::INTEGER
     ) AS path,
+    list_filter(
+        list_transform(
+            CASE WHEN $max_events > 0 THEN packed[1:$max_events] ELSE packed END,
+            lambda x, i: CASE WHEN (x >> 16) & 1 = 1 THEN i ELSE 0 END
+        ),
+        lambda i: i > 0
+    )::INTEGER[] AS error_positions,
     ($max_events > 0 AND event_count > $max_events) AS is_truncated,
     app_version,
     platform

@@ -35,7 +35,7 @@ grouped AS (
         max(ts) AS ended_at,
         count(*)::INTEGER AS event_count,
         count(*) FILTER (WHERE is_error)::INTEGER AS error_count,
-        list_sort(list((seq << 16) | event_id)) AS packed,
+        list_sort(list((seq << 17) | (is_error::BIGINT << 16) | event_id)) AS packed,
         any_value(app_version) FILTER (WHERE seq = 1) AS app_version,
         any_value(platform) FILTER (WHERE seq = 1) AS platform
     FROM ordered
@@ -53,6 +53,13 @@ SELECT
         CASE WHEN $max_events > 0 THEN packed[1:$max_events] ELSE packed END,
         lambda x: (x & 65535)::INTEGER
     ) AS path,
+    list_filter(
+        list_transform(
+            CASE WHEN $max_events > 0 THEN packed[1:$max_events] ELSE packed END,
+            lambda x, i: CASE WHEN (x >> 16) & 1 = 1 THEN i ELSE 0 END
+        ),
+        lambda i: i > 0
+    )::INTEGER[] AS error_positions,
     ($max_events > 0 AND event_count > $max_events) AS is_truncated,
     app_version,
     platform

@@ -1,5 +1,5 @@
 -- Creates the sessions table: one row per session (session_key numbered by user, then start),
--- with its path and path_id, counts, errors, time span, segments and whether its user was flagged
+-- with its path and path_id, the positions in the path whose event failed, counts, errors, time span, segments and whether its user was flagged
 -- as automated. Reads raw_sessions, full_paths, automated_users. Parameters: none.
 CREATE OR REPLACE TABLE sessions AS
 SELECT
@@ -12,6 +12,7 @@ SELECT
     r.event_count,
     r.error_count,
     r.path,
+    r.error_positions,
     r.is_truncated,
     r.app_version,
     r.platform,

@@ -140,3 +140,30 @@ def test_each_listed_gap_is_its_familys_longest_common_member(demo_gaps: dict) -
         assert gap["sessions"] >= 0.8 * best
         assert all(len(m["path"]) <= len(gap["path"]) for m in members if m["sessions"] >= 0.8 * best)
         assert gap["family_sessions"] >= best
+
+
+def test_errors_are_pinned_to_the_steps_that_fail(demo_gaps: dict) -> None:
+    """Each step's failure rate among a gap's sessions holds the rate the generator planted for that
+    event (manifest `error_rates`) inside its 95 % Wilson interval. Left out: pick_slot (its planted
+    rate differs by segment) and the card payment of the card-then-voucher journey (failed on purpose)."""
+    planted = MANIFEST["error_rates"]
+    checked = 0
+    for gap in demo_gaps["gaps"]:
+        for step in gap["step_errors"]:
+            event = step["event"]
+            if event == "pick_slot" or (event == "pay_deposit_card" and "pay_deposit_voucher" in gap["path"]):
+                continue
+            rate = planted.get(event, planted["base"])
+            assert step["rate_low"] <= rate <= step["rate_high"], (gap["path"], step)
+            checked += 1
+    assert checked >= 20
+
+
+def test_a_journey_does_not_borrow_errors_from_elsewhere_in_its_sessions(demo_gaps: dict) -> None:
+    (voucher,) = [g for g in demo_gaps["gaps"] if g["path"][-2:] == ["pick_slot", "pay_deposit_voucher"]]
+    # sessions that pay by voucher often failed a card payment before; that is not this path's error
+    assert voucher["session_error_rate"] > 0.2
+    assert voucher["error_rate"] < 0.1 and voucher["risk"] < 2
+    (retry,) = [g for g in demo_gaps["gaps"] if g["path"][-2:] == ["pay_deposit_card", "pay_deposit_voucher"]]
+    assert retry["failing_step"]["event"] == "pay_deposit_card" and retry["risk"] == 4.0
+    assert "pay_deposit_card fails in 100.0 % of these sessions" in retry["reason"]
