@@ -100,7 +100,7 @@ def exercised_codes(framed: Sequence[int], *, max_k: int, max_gap: int, bits: in
     return codes
 
 
-def occurs_in(pattern: Sequence[int], path: Sequence[int], max_gap: int | None) -> bool:
+def occurs_in(pattern: Sequence[Any], path: Sequence[Any], max_gap: int | None) -> bool:
     """Whether ``pattern`` occurs in ``path`` in order with at most ``max_gap`` steps between
     consecutive items (None: any number).
 

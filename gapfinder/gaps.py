@@ -39,7 +39,7 @@ from gapfinder.coverage import (
 from gapfinder.errors import ConfigError
 from gapfinder.mining import containing_sequences
 from gapfinder.occurrences import first_occurrences
-from gapfinder.paths import feature_names
+from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated
 from gapfinder.periods import Period, split_in_halves
 from gapfinder.privacy import DEFAULT_MIN_USERS
@@ -56,6 +56,10 @@ SEGMENT_LIFT = 1.5
 FAMILY_JACCARD = 0.5
 # A family is shown by its longest member in at least this share of its most common member's sessions.
 LEAD_SHARE = 0.8
+# Families formed before the listing is cut to `top` (the same for every top up to half of it).
+MAX_FAMILIES = 100
+# Complete session paths shown per gap, so a tester can replay what people did.
+EXAMPLES = 3
 
 
 @dataclass(frozen=True)
@@ -208,7 +212,7 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
         if home is not None:
             families[home].append(gap)
             leads[home] = _lead(families[home])
-        elif len(families) < 3 * top:  # room for merges below; later gaps could not be listed anyway
+        elif len(families) < max(MAX_FAMILIES, 2 * top):  # the same cap whatever `top`: ranks do not move
             families.append([gap])
             leads.append(gap)
             home = len(families) - 1
@@ -576,11 +580,31 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
     }
     ranked.sort(key=lambda g: (-g["score"], g["k"], g["path"]))
     listed = fold_families(ranked, options.top, sets)
+    hidden = set(hidden_full_path_ids(con, min_users=options.min_users).tolist())
     for rank, gap in enumerate(listed, start=1):
         gap["rank"] = rank
-        gap.pop("_index")
+        gap["example_sessions"] = _example_sessions(db, sets[gap.pop("_index")], hidden, names)
     result["gaps"] = listed
     return result
+
+
+def _example_sessions(
+    db: Any, session_set: SessionSet, hidden: set[int], names: list[str], count: int = EXAMPLES
+) -> list[dict[str, Any]]:
+    """The most common complete session paths that hold the gap, as a tester could replay them; only
+    paths the full-path listing shows (above the privacy floor, after complementary suppression)."""
+    sequences, weights = session_set
+    order = np.lexsort((sequences, -weights))
+    out = []
+    for i in order.tolist():
+        seq = int(sequences[i])
+        if int(db.path_ids[seq]) in hidden:
+            continue
+        steps = db.items[db.starts[seq] : db.starts[seq + 1]].tolist()
+        out.append({"path": [names[e] for e in steps], "sessions": int(weights[i])})
+        if len(out) == count:
+            break
+    return out
 
 
 def unused_tests(

@@ -20,10 +20,10 @@ from gapfinder.export import STEPS_MAP, export_plan
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.patterns import MiningOptions, mine_workspace
 from gapfinder.plan import PlanOptions, make_plan
-from gapfinder.quoting import markdown_code
+from gapfinder.quoting import markdown_code, markdown_text
+from gapfinder.report.markdown import decision_of, privacy_note
 from gapfinder.report.markdown import markdown_path as _path
 from gapfinder.report.markdown import percent as _pct
-from gapfinder.report.markdown import privacy_note
 from gapfinder.safe_io import check_target, write_files
 from gapfinder.suite import SuiteOptions, load_suite, read_suite
 from gapfinder.usage_profile import ProfileOptions, profile_telemetry
@@ -175,6 +175,31 @@ def _suite_line(suite: dict[str, Any]) -> str:
     )
 
 
+def _plan_section(plan: dict[str, Any]) -> list[str]:
+    """Next sprint's scenarios, first on the page: what to test next and why."""
+    lines = [
+        f"## Next sprint: {len(plan['scenarios'])} new scenario(s), budget {plan['budget']} {plan['cost']}",
+        "",
+        f"Objective: field occurrences of untested {plan['objective']}; the plan adds {_pct(plan['gain_share'])} "
+        f"of them. Guarantee: {plan['guarantee']}.",
+        "",
+        "| # | scenario | steps | adds | closes gaps | why |",
+        "|---|---|---|---|---|---|",
+    ]
+    for s in plan["scenarios"]:
+        lines.append(
+            f"| {s['scenario']} | {_path(s['path'])} | {s['steps']} | {_pct(s['gain_share'])} | "
+            f"{', '.join('#' + str(g) for g in s['gaps'])} | {markdown_text(s['reason'])} |"
+        )
+    lines += [
+        "",
+        "Skeletons: `pytest/` (steps in `gapfinder_steps.py`), `gherkin/`, `gapfinder_plan.json`, "
+        "`gapfinder_plan.csv`.",
+        "",
+    ]
+    return lines
+
+
 def render_summary_markdown(summary: dict[str, Any]) -> str:
     """The one-page Markdown summary of a run (coverage, gaps, plan, unused tests, privacy)."""
     profile, suite, gaps, plan, unused = (summary[k] for k in ("profile", "suite", "gaps", "plan", "unused"))
@@ -190,6 +215,9 @@ def render_summary_markdown(summary: dict[str, Any]) -> str:
         "",
         _suite_line(suite),
         "",
+    ]
+    lines += _plan_section(plan)
+    lines += [
         "## Coverage now and after the plan",
         "",
         "Share of field sessions' items that the tests exercise (strict: contiguous runs).",
@@ -208,36 +236,16 @@ def render_summary_markdown(summary: dict[str, Any]) -> str:
         "",
         "Score: lower bound of the 95 % interval of the share of sessions, times an error risk factor (1–4).",
         "",
-        "| # | path | sessions | users | share (95 % interval) | errors | trend |",
-        "|---|---|---|---|---|---|---|",
+        "| # | path | sessions | users | share (95 % interval) | errors on its steps | trend | in the plan |",
+        "|---|---|---|---|---|---|---|---|",
     ]
     for g in gaps["gaps"]:
         lines.append(
             f"| {g['rank']} | {_path(g['path'])} | {g['sessions']:,} | {g['users']:,} | {_pct(g['share'])} "
             f"({100 * g['share_low']:.1f}–{100 * g['share_high']:.1f}) | {_pct(g['error_rate'])} "
-            f"| {g['trend']['label']} |"
+            f"| {g['trend']['label']} | {markdown_text(decision_of(plan, g['rank'], g['path']))} |"
         )
     lines += ["", f"{gaps['suppressed']:,} candidate paths held back: fewer than {gaps['min_users']} users.", ""]
-    lines += [
-        f"## Plan: {len(plan['scenarios'])} new scenario(s), budget {plan['budget']} {plan['cost']}",
-        "",
-        f"Objective: field occurrences of untested {plan['objective']}; the plan adds {_pct(plan['gain_share'])} "
-        f"of them. Guarantee: {plan['guarantee']}.",
-        "",
-        "| # | scenario | steps | adds | closes gaps |",
-        "|---|---|---|---|---|",
-    ]
-    for s in plan["scenarios"]:
-        lines.append(
-            f"| {s['scenario']} | {_path(s['path'])} | {s['steps']} | {_pct(s['gain_share'])} | "
-            f"{', '.join('#' + str(g) for g in s['gaps'])} |"
-        )
-    lines += [
-        "",
-        "Skeletons: `pytest/` (steps in `gapfinder_steps.py`), `gherkin/`, `gapfinder_plan.json`, "
-        "`gapfinder_plan.csv`.",
-        "",
-    ]
     if unused.get("not_read"):
         lines += [
             f"## Tests not read ({len(unused['not_read'])})",

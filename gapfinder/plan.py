@@ -275,10 +275,12 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
     scenarios: list[dict[str, Any]] = []
     seen: dict[tuple[str, ...], dict[str, Any]] = {}
     unreachable = 0
+    unreachable_ranks: set[int] = set()
     for gap in gap_result["gaps"]:
         built = scenario_through(model, gap["path"])
         if built is None:
             unreachable += 1
+            unreachable_ranks.add(gap["rank"])
             continue
         steps, probability = built
         key = tuple(steps)
@@ -355,12 +357,86 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
         "method": selection.method,
         "coverage": headline,
     }
+    plan["gap_decisions"] = _gap_decisions(
+        gap_result["gaps"],
+        scenarios,
+        selection,
+        sets,
+        weights,
+        covered,
+        unreachable_ranks,
+        objective_total,
+        options.objective,
+    )
     if ws.has_table("plan_scenarios"):
         from gapfinder.coverage import planned_and_done
 
         plan["earlier_plan"] = planned_and_done(ws, tests)
     _store(ws, plan, options)
     return plan
+
+
+def _gap_decisions(
+    gaps: list[dict[str, Any]],
+    scenarios: list[dict[str, Any]],
+    selection: Selection,
+    sets: list[set[int]],
+    weights: dict[int, float],
+    covered: set[int],
+    unreachable: set[int],
+    objective_total: float,
+    objective: str,
+) -> list[dict[str, Any]]:
+    """For each ranked gap, whether the plan covers it and, if not, why."""
+    number_of = {i: n for n, i in enumerate(selection.chosen, start=1)}
+    after = set(covered).union(*(sets[i] for i in selection.chosen)) if selection.chosen else set(covered)
+    smallest = min(selection.gains) if selection.gains else 0.0
+    scenario_of_gap: dict[int, int] = {}
+    for i, scenario in enumerate(scenarios):
+        for rank in scenario["gaps"]:
+            scenario_of_gap.setdefault(rank, i)
+    decisions = []
+    for gap in gaps:
+        rank = gap["rank"]
+        built = scenario_of_gap.get(rank)
+        if rank in unreachable:
+            status, why = "no scenario", "the usage model has no complete session through its path"
+        elif built is None:
+            status, why = "not considered", "no candidate scenario was built for it"
+        elif built in number_of:
+            status, why = "planned", f"scenario {number_of[built]} exercises it"
+        else:
+            rest = sum(weights[x] for x in sets[built] - after)
+            by = next(
+                (
+                    number_of[j]
+                    for j in selection.chosen
+                    if occurs_in(
+                        gap["path"],
+                        ["START", *scenarios[j]["steps"], "END"],
+                        None if gap["kind"] == "pattern" else 0,
+                    )
+                ),
+                None,
+            )
+            if by is not None:
+                status, why = "covered indirectly", f"scenario {by} exercises it on the way"
+            elif rest == 0:
+                status = "no gain"
+                why = (
+                    f"the planned scenarios already add every {objective.rstrip('s')} its scenario would add; "
+                    "the path as a whole stays untested"
+                )
+            else:
+                share = rest / objective_total if objective_total else 0.0
+                least = smallest / objective_total if objective_total else 0.0
+                status = "over budget"
+                why = (
+                    f"budget spent on bigger gains: its scenario would add {100 * share:.2f} % of the objective, "
+                    f"the smallest planned one adds {100 * least:.2f} %"
+                )
+        decisions.append({"rank": rank, "path": gap["path"], "status": status, "why": why})
+    return decisions
 
 
 def _scenario_name(gap_path: Sequence[str]) -> str:

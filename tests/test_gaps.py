@@ -167,3 +167,24 @@ def test_a_journey_does_not_borrow_errors_from_elsewhere_in_its_sessions(demo_ga
     (retry,) = [g for g in demo_gaps["gaps"] if g["path"][-2:] == ["pay_deposit_card", "pay_deposit_voucher"]]
     assert retry["failing_step"]["event"] == "pay_deposit_card" and retry["risk"] == 4.0
     assert "pay_deposit_card fails in 100.0 % of these sessions" in retry["reason"]
+
+
+def test_each_gap_shows_complete_sessions_that_hold_it(demo_gaps: dict, suite_workspace: Path) -> None:
+    from gapfinder.coverage import occurs_in
+
+    with Workspace(suite_workspace, read_only=True) as ws:
+        names = feature_names(ws.con)
+        users_of = {
+            tuple(names[e] for e in path): users
+            for path, users in ws.con.execute("SELECT path, users FROM full_paths").fetchall()
+        }
+    for gap in demo_gaps["gaps"]:
+        examples = gap["example_sessions"]
+        assert 1 <= len(examples) <= 3
+        counts = [e["sessions"] for e in examples]
+        assert counts == sorted(counts, reverse=True) and counts[0] <= gap["sessions"]
+        inner = [s for s in gap["path"] if s not in ("START", "END")]
+        for example in examples:
+            framed = ["START", *example["path"], "END"]
+            assert occurs_in(gap["path"] if gap["kind"] != "pattern" else inner, framed, None)
+            assert users_of[tuple(example["path"])] >= 5  # above the privacy floor

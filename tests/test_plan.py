@@ -131,3 +131,24 @@ def test_bad_plan_options() -> None:
         PlanOptions(budget=0)
     with pytest.raises(ConfigError, match="--objective"):
         PlanOptions(objective="vibes")
+
+
+def test_every_ranked_gap_says_whether_the_plan_covers_it(suite_workspace: Path, tmp_path: Path) -> None:
+    import shutil
+
+    from gapfinder.plan import PlanOptions, make_plan
+    from gapfinder.workspace import Workspace
+
+    ws_path = tmp_path / "ws.duckdb"
+    shutil.copy(suite_workspace, ws_path)
+    with Workspace(ws_path) as ws:
+        plan = make_plan(ws, PlanOptions(budget=3))
+    decisions = plan["gap_decisions"]
+    assert decisions and [d["rank"] for d in decisions] == sorted(d["rank"] for d in decisions)
+    statuses = {"planned", "covered indirectly", "no gain", "over budget", "no scenario", "not considered"}
+    assert {d["status"] for d in decisions} <= statuses
+    planned_ranks = {g for s in plan["scenarios"] for g in s["gaps"]}
+    for d in decisions:
+        assert (d["status"] == "planned") == (d["rank"] in planned_ranks), d
+        assert d["why"]
+    assert any(d["status"] == "over budget" and "smallest planned one adds" in d["why"] for d in decisions)

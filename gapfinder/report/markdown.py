@@ -5,9 +5,17 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
-from gapfinder.quoting import markdown_code
+from gapfinder.quoting import markdown_code, markdown_text
 
-__all__ = ["markdown_path", "percent", "privacy_note", "render_markdown", "suite_sentence"]
+__all__ = [
+    "decision_of",
+    "markdown_path",
+    "percent",
+    "plan_lines",
+    "privacy_note",
+    "render_markdown",
+    "suite_sentence",
+]
 
 
 def percent(x: float | None) -> str:
@@ -49,6 +57,35 @@ def suite_sentence(suite: dict[str, Any]) -> str:
     )
 
 
+def plan_lines(plan: dict[str, Any] | None) -> list[str]:
+    """Next sprint's scenarios: the plan's table, or how to make one."""
+    lines = ["## Next sprint's scenarios", ""]
+    if plan and plan.get("scenarios"):
+        lines += [
+            f"Budget {plan['budget']} {plan['cost']}; adds {_pct(plan['gain_share'])} of the field occurrences of "
+            f"untested {plan['objective']}. Guarantee: {plan['guarantee']}.",
+            "",
+            "| # | scenario | steps | adds | closes gaps |",
+            "|---|---|---|---|---|",
+        ]
+        lines += [
+            f"| {s['scenario']} | {_path(s['path'])} | {s['steps']} | {_pct(s['gain_share'])} | "
+            f"{', '.join('#' + str(g) for g in s['gaps'])} |"
+            for s in plan["scenarios"]
+        ]
+    else:
+        lines.append("No plan stored yet: run `gapfinder plan -w WORKSPACE --budget N`.")
+    return [*lines, ""]
+
+
+def decision_of(plan: dict[str, Any] | None, rank: int, path: list[str]) -> str:
+    """Whether the stored plan covers the gap of this rank and path, and if not why (empty: unknown)."""
+    for d in (plan or {}).get("gap_decisions", []):
+        if d["rank"] == rank and d["path"] == path:
+            return f"{d['status']}: {d['why']}"
+    return ""
+
+
 def render_markdown(data: dict[str, Any]) -> str:
     """The report page for ``report_data(...)`` in Markdown."""
     profile, coverage, gaps, plan, drift = (data[k] for k in ("profile", "coverage", "gaps", "plan", "drift"))
@@ -61,6 +98,7 @@ def render_markdown(data: dict[str, Any]) -> str:
         "",
         suite_sentence(coverage.get("suite") or {}),
         "",
+        *plan_lines(plan),
         "## Coverage",
         "",
         "| metric | by sessions | by occurrences | distinct items |",
@@ -88,35 +126,20 @@ def render_markdown(data: dict[str, Any]) -> str:
         "",
         "## Untested paths most worth a test",
         "",
-        "| # | path | sessions | users | share (95 % interval) | errors | trend |",
-        "|---|---|---|---|---|---|---|",
+        "| # | path | sessions | users | share (95 % interval) | errors on its steps | trend | in the plan |",
+        "|---|---|---|---|---|---|---|---|",
     ]
     for g in gaps["gaps"]:
         lines.append(
             f"| {g['rank']} | {_path(g['path'])} | {g['sessions']:,} | {g['users']:,} | {_pct(g['share'])} "
-            f"({100 * g['share_low']:.1f}–{100 * g['share_high']:.1f}) | {_pct(g['error_rate'])} | {g['trend']['label']} |"
+            f"({100 * g['share_low']:.1f}–{100 * g['share_high']:.1f}) | {_pct(g['error_rate'])} | {g['trend']['label']} "
+            f"| {markdown_text(decision_of(plan, g['rank'], g['path']))} |"
         )
     lines += [
         "",
         f"Score: {gaps['score']}. {gaps['suppressed']:,} candidates held back: fewer than {gaps['min_users']} users.",
         "",
     ]
-    lines += ["## Next sprint's scenarios", ""]
-    if plan and plan.get("scenarios"):
-        lines += [
-            f"Budget {plan['budget']} {plan['cost']}; adds {_pct(plan['gain_share'])} of untested {plan['objective']}. "
-            f"Guarantee: {plan['guarantee']}.",
-            "",
-            "| # | scenario | steps | adds | closes gaps |",
-            "|---|---|---|---|---|",
-        ]
-        lines += [
-            f"| {s['scenario']} | {_path(s['path'])} | {s['steps']} | {_pct(s['gain_share'])} | "
-            f"{', '.join('#' + str(g) for g in s['gaps'])} |"
-            for s in plan["scenarios"]
-        ]
-    else:
-        lines.append("No plan stored yet: run `gapfinder plan -w WORKSPACE --budget N`.")
     current, previous, distance = drift["current"], drift["previous"], drift["distance"]
     lines += [
         "",

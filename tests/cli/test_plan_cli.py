@@ -48,7 +48,10 @@ def test_run_writes_everything(tmp_path: Path) -> None:
     )
     assert result.exit_code == 0, result.output
     summary = (out / "summary.md").read_text()
-    assert "# Test coverage against real usage" in summary and "## Plan: 5 new scenario(s)" in summary
+    assert "# Test coverage against real usage" in summary and "## Next sprint: 5 new scenario(s)" in summary
+    # the page leads with the answer: next sprint's scenarios come before coverage and gaps
+    assert summary.index("## Next sprint") < summary.index("## Coverage now") < summary.index("untested paths")
+    assert "| in the plan |" in summary and "planned: scenario" in summary
     assert (out / "pytest" / "gapfinder_steps.py").exists() and list((out / "gherkin").glob("*.feature"))
     assert json.loads((out / "gapfinder_plan.json").read_text())["budget"] == 5
 
