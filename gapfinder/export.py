@@ -117,7 +117,8 @@ def _evidence_lines(row: dict[str, Any]) -> list[str]:
         else ""
     )
     return [
-        f"Gap #{', #'.join(str(g) for g in row['gaps'])}: {' > '.join(row['gap_path'])}",
+        f"Scenario {int(row['scenario'])}, for gap #{', #'.join(str(g) for g in row['gaps'])}: "
+        f"{' > '.join(row['gap_path'])}",
         f"Sessions: {row['sessions']:,}; users: {row['users']:,}; share {100 * row['share']:.2f} % "
         f"(95 % interval {100 * row['share_low']:.2f}–{100 * row['share_high']:.2f} %)",
         f"A step of the path itself failed in {100 * row['error_rate']:.1f} % of those sessions{where}",
@@ -252,11 +253,9 @@ def _gherkin_files(plan: dict[str, Any], phrases: dict[str, str], earlier_map: s
         for row in rows:
             lines.append("")
             lines += [f"  # {gherkin_text(line)}" for line in _evidence_lines(row)]
-            lines.append(
-                f"  @gapfinder @pending @rank-{int(row['scenario'])} @share-{100 * float(row['share']):.1f}pct".replace(
-                    ".", "_"
-                )
-            )
+            gap_tags = " ".join(f"@gap-{int(g)}" for g in row["gaps"])
+            share = f"{100 * float(row['share']):.1f}".replace(".", "_")
+            lines.append(f"  @gapfinder @pending @scenario-{int(row['scenario'])} {gap_tags} @share-{share}pct")
             lines.append(f"  Scenario: {gherkin_text(row['name'])}")
             for n, event in enumerate(row["path"]):
                 # Given, When, then And: every step is an action (a Then would read as an assertion)

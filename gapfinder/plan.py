@@ -312,7 +312,7 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
         rows.append(
             {
                 "scenario": n,
-                "name": _scenario_name(gap["path"]),
+                "name": _scenario_name(sc["steps"]),
                 "path": sc["steps"],
                 "steps": len(sc["steps"]),
                 "probability": sc["probability"],
@@ -439,8 +439,9 @@ def _gap_decisions(
     return decisions
 
 
-def _scenario_name(gap_path: Sequence[str]) -> str:
-    inner = [s for s in gap_path if s not in (START, END)] or list(gap_path)
+def _scenario_name(steps: Sequence[str]) -> str:
+    """The scenario's name, made of its own steps in order."""
+    inner = [s for s in steps if s not in (START, END)] or list(steps)
     return " then ".join(s.replace("_", " ") for s in inner)
 
 

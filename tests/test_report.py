@@ -92,3 +92,24 @@ def test_html_renders_in_headless_chromium(data: dict, tmp_path: Path) -> None:
     console = [line for line in done.stderr.splitlines() if ":CONSOLE" in line]
     assert not console, console
     assert shot.exists() and shot.stat().st_size > 50_000, done.stderr[-2000:]
+
+
+def test_gaps_stay_readable_at_80_columns(suite_workspace) -> None:  # type: ignore[no-untyped-def]
+    import io
+
+    from rich.console import Console
+
+    from gapfinder.gaps import GapOptions, find_gaps
+    from gapfinder.report import render_gaps
+    from gapfinder.workspace import Workspace
+
+    with Workspace(suite_workspace, read_only=True) as ws:
+        result = find_gaps(ws, GapOptions(top=5))
+    out = io.StringIO()
+    render_gaps(result, Console(file=out, width=80, no_color=True))
+    text = out.getvalue()
+    assert all(len(line) <= 80 for line in text.splitlines())
+    assert "…" not in text  # no path is cut short
+    flat = " ".join(text.split())
+    for gap in result["gaps"]:
+        assert " › ".join(gap["path"]) in flat

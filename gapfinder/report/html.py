@@ -11,7 +11,7 @@ import math
 from typing import Any
 
 from gapfinder.quoting import html_text
-from gapfinder.report.markdown import privacy_note, suite_sentence
+from gapfinder.report.markdown import p_value_text, privacy_note, suite_sentence
 
 __all__ = ["render_html"]
 
@@ -273,7 +273,7 @@ def _drift_section(drift: dict[str, Any]) -> str:
     ]
     for m in drift["movers"]:
         interval = f"{100 * m['change_low']:+.1f}…{100 * m['change_high']:+.1f}" if "change_low" in m else ""
-        p = f"{m['p_value']:.2g}" if "p_value" in m else ""
+        p = html_text(p_value_text(m.get("p_value")))
         out.append(
             f'<tr><td class="path">{_path(m["path"])}</td><td class="num">{_pct(m["share_before"])}</td>'
             f'<td class="num">{_pct(m["share_now"])}</td><td class="num">{100 * m["change"]:+.1f} pt<br/>'

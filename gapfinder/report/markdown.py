@@ -10,6 +10,7 @@ from gapfinder.quoting import markdown_code, markdown_text
 __all__ = [
     "decision_of",
     "markdown_path",
+    "p_value_text",
     "percent",
     "plan_lines",
     "privacy_note",
@@ -55,6 +56,17 @@ def suite_sentence(suite: dict[str, Any]) -> str:
         + (f" (left out: {left_out})" if left_out else "")
         + f"; {suite['mapped_step_count']:,} of {suite['step_count']:,} test steps are mapped to field events."
     )
+
+
+def p_value_text(p: float | None) -> str:
+    """A p-value as a reader expects it: three decimals, and ``< 0.001`` below that.
+
+    >>> p_value_text(0.0), p_value_text(0.04321), p_value_text(None)
+    ('< 0.001', '0.043', '')
+    """
+    if p is None:
+        return ""
+    return "< 0.001" if p < 0.001 else f"{p:.3f}"
 
 
 def plan_lines(plan: dict[str, Any] | None) -> list[str]:
@@ -155,7 +167,7 @@ def render_markdown(data: dict[str, Any]) -> str:
         )
     lines += ["", "| moved most | share before | share now | change | p |", "|---|---|---|---|---|"]
     for m in drift["movers"]:
-        p = f"{m['p_value']:.2g}" if "p_value" in m else ""
+        p = p_value_text(m.get("p_value"))
         lines.append(
             f"| {_path(m['path'])} | {_pct(m['share_before'])} | {_pct(m['share_now'])} | {100 * m['change']:+.1f} pt | {p} |"
         )

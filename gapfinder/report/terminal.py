@@ -13,6 +13,8 @@ from typing import Any
 from rich.console import Console
 from rich.table import Table
 
+from gapfinder.report.markdown import p_value_text
+
 __all__ = ["format_path", "render_audit", "render_paths", "render_plan", "render_profile", "summary_rows"]
 
 ACCENT = "dark_cyan"
@@ -362,12 +364,39 @@ def render_coverage(result: dict[str, Any], console: Console) -> None:
     console.print(tests)
 
 
+# Below this many columns a table would squeeze the path column: gaps are shown one block each.
+NARROW = 110
+
+
+def _render_gaps_as_blocks(result: dict[str, Any], console: Console) -> None:
+    """One gap per block, the path on its own lines, for narrow terminals."""
+    console.print("Gaps, most worth a test first")
+    for g in result["gaps"]:
+        lift = f" ({g['error_lift']:.1f}×)" if g["error_lift"] and g["risk"] > 1 else ""
+        console.print(f"[bold]{g['rank']}.[/] {format_path(g['path'])}")
+        console.print(
+            f"   {g['kind']} · {g['sessions']:,} sessions · {g['users']:,} users · {_pct(g['share'])} "
+            f"({100 * g['share_low']:.1f}–{100 * g['share_high']:.1f}) · errors on its steps "
+            f"{_pct(g['error_rate'])}{lift} · {g['trend']['label']}"
+        )
+        console.print(f"   [{MUTED}]{g['reason']}[/]")
+        if g["folded"]:
+            console.print(f"   [{MUTED}]{len(g['folded'])} related path(s) in the same sessions folded under it[/]")
+    console.print(
+        f"[{MUTED}]score: {result['score']} · {result['suppressed']:,} candidates held back: fewer than "
+        f"{result['min_users']} users[/]"
+    )
+
+
 def render_gaps(result: dict[str, Any], console: Console) -> None:
     """The ranked gaps, each with its reason and what was folded under it."""
     console.print(
         f"[bold {ACCENT}]Untested paths people take[/] · {result['total_sessions']:,} sessions, "
-        f"{result['tests']} tests · baseline error rate {_pct(result['baseline_error_rate'])}"
+        f"{result['tests']} tests · sessions with any error {_pct(result['baseline_error_rate'])}"
     )
+    if console.width < NARROW:
+        _render_gaps_as_blocks(result, console)
+        return
     table = _table(
         "Gaps, most worth a test first",
         ("#", "right"),
@@ -376,7 +405,7 @@ def render_gaps(result: dict[str, Any], console: Console) -> None:
         ("sessions", "right"),
         ("users", "right"),
         ("share (95 % interval)", "right"),
-        ("errors", "right"),
+        ("errors on its steps", "right"),
         ("trend", "left"),
     )
     for g in result["gaps"]:
@@ -516,7 +545,7 @@ def render_audit(result: dict[str, Any], console: Console) -> None:
             _pct(m["share_before"]),
             _pct(m["share_now"]),
             f"{100 * m['change']:+.1f} pt{interval}",
-            f"{m['p_value']:.2g}" if "p_value" in m else "",
+            p_value_text(m.get("p_value")),
         )
     movers.caption = f"{result['held_back']:,} paths held back: fewer than {result['min_users']} users in a period"
     movers.caption_style = MUTED
