@@ -47,7 +47,15 @@ from gapfinder.sql import fetch_dicts, registered
 from gapfinder.stats import ratio_interval, wilson_interval
 from gapfinder.workspace import Workspace
 
-__all__ = ["GAP_KINDS", "GapOptions", "find_gaps", "fold_families", "session_jaccard", "unused_tests"]
+__all__ = [
+    "GAP_KINDS",
+    "GapOptions",
+    "find_gaps",
+    "fold_families",
+    "session_jaccard",
+    "session_sets",
+    "unused_tests",
+]
 
 GAP_KINDS = ("feature", "transition", "kpath", "pattern")
 MAX_RISK = 4.0
@@ -169,6 +177,16 @@ def _contains(longer: tuple[int, ...], shorter: tuple[int, ...]) -> bool:
 
 
 SessionSet = tuple[np.ndarray, np.ndarray]  # sorted distinct-path indices, their session counts
+
+
+def session_sets(which: np.ndarray, sequence: np.ndarray, weights: np.ndarray, count: int) -> dict[int, SessionSet]:
+    """Each candidate's session set from (candidate, distinct path) pairs: sorted paths and their sessions."""
+    order = np.lexsort((sequence, which))
+    which, sequence = which[order], sequence[order]
+    bounds = np.searchsorted(which, np.arange(count + 1))
+    return {
+        n: (sequence[bounds[n] : bounds[n + 1]], weights[sequence[bounds[n] : bounds[n + 1]]]) for n in range(count)
+    }
 
 
 def session_jaccard(a: SessionSet, b: SessionSet) -> float:
@@ -571,13 +589,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         }
         gap["reason"] = _reason(gap, _KIND_WORDS)
         ranked.append(gap)
-    order = np.lexsort((sequence, which))
-    which, sequence = which[order], sequence[order]
-    bounds = np.searchsorted(which, np.arange(len(pool) + 1))
-    sets: dict[int, SessionSet] = {
-        index: (sequence[bounds[index] : bounds[index + 1]], db.weights[sequence[bounds[index] : bounds[index + 1]]])
-        for index in range(len(pool))
-    }
+    sets = session_sets(which, sequence, db.weights, len(pool))
     ranked.sort(key=lambda g: (-g["score"], g["k"], g["path"]))
     listed = fold_families(ranked, options.top, sets)
     hidden = set(hidden_full_path_ids(con, min_users=options.min_users).tolist())

@@ -201,6 +201,7 @@ def usage_paths(
     top: int | None = 50,
     max_length: int | None = None,
     mining: MiningOptions | None = None,
+    one_per_journey: bool = True,
 ) -> dict[str, Any]:
     """The paths people take, of one kind, as a listing with the privacy floor applied.
 
@@ -208,7 +209,8 @@ def usage_paths(
     3 or more states, up to ``max_length``), patterns (mined now with ``mining`` and stored) or full
     (complete session paths). ``min_support`` is a fraction of sessions (below 1) or a count; for
     patterns it defaults to ``mining.min_support``. Rows under ``min_users`` distinct users are held
-    back and counted.
+    back and counted. With ``one_per_journey`` patterns that share more than half of their sessions
+    are one row, as for gaps (``gaps.fold_families``); the others are counted under ``folded``.
     """
     from gapfinder.paths import list_features, list_full_paths, list_kpaths
 
@@ -226,8 +228,14 @@ def usage_paths(
         if max_length is not None:
             options = replace(options, max_length=max_length, min_length=min(options.min_length, max_length))
         found = mine_workspace(ws, options)
-        listing = list_patterns(con, min_users=min_users, limit=limit, total_sessions=total)
+        pool = None if not one_per_journey else max(300, 10 * (limit or 30))
+        listing = list_patterns(
+            con, min_users=min_users, limit=limit if not one_per_journey else pool, total_sessions=total
+        )
         rows = [{**_without(r, "is_closed"), "closed": bool(r["is_closed"])} for r in listing.rows]
+        if one_per_journey and rows:
+            rows = _one_row_per_journey(con, rows, found.parameters.get("max_gap"), limit)
+        result["one_per_journey"] = one_per_journey
         result["min_support_sessions"] = found.min_support_sessions
         result["mining"] = {
             **{k: v for k, v in found.parameters.items() if k not in ("total_sessions", "min_support_sessions")},
@@ -259,6 +267,36 @@ def usage_paths(
     result["suppressed"] = listing.suppressed_count
     result["min_users"] = min_users
     return result
+
+
+def _one_row_per_journey(
+    con: duckdb.DuckDBPyConnection, rows: list[dict[str, Any]], max_gap: int | None, limit: int | None
+) -> list[dict[str, Any]]:
+    """Listed patterns folded into journey families by their session sets, as the gap listing does."""
+    from gapfinder.gaps import fold_families, session_sets
+    from gapfinder.mining import containing_sequences
+    from gapfinder.paths import feature_names
+
+    names = feature_names(con)
+    ids = {name: i for i, name in enumerate(names)}
+    db = load_sequences(con, with_users=False)
+    paths = [tuple(ids[e] for e in r["path"]) for r in rows]
+    which, sequence = containing_sequences(db, paths, max_gaps=[max_gap] * len(paths), framed=[False] * len(paths))
+    sets = session_sets(which, sequence, db.weights, len(paths))
+    ranked = [
+        {**r, "kind": "pattern", "score": float(r["sessions"]), "_ids": paths[n], "_index": n}
+        for n, r in enumerate(rows)
+    ]
+    folded = fold_families(ranked, limit or len(ranked), sets)
+    out = []
+    for row in folded:
+        row.pop("_index", None)
+        row.pop("score", None)
+        row.pop("kind", None)
+        row.pop("family_sessions", None)
+        row["folded"] = len(row["folded"])
+        out.append(row)
+    return out
 
 
 def _without(row: dict[str, Any], key: str) -> dict[str, Any]:

@@ -497,6 +497,12 @@ def _parse_max_gap(_ctx: click.Context, _param: click.Parameter, value: str) -> 
     show_default=True,
     help="Patterns: list only closed ones (no one-step-longer pattern containing it has the same sessions).",
 )
+@click.option(
+    "--each-pattern",
+    is_flag=True,
+    help="Patterns: list every pattern, also those riding on the same sessions as a listed one "
+    "(default: one row per journey).",
+)
 @click.option("--top", default=50, show_default=True, type=click.IntRange(min=0), help="Rows to list (0: all of them).")
 @output_options
 def paths(
@@ -508,6 +514,7 @@ def paths(
     min_length: int,
     max_gap: int | None,
     closed: bool,
+    each_pattern: bool,
     top: int,
     output_format: str,
 ) -> None:
@@ -526,7 +533,14 @@ def paths(
     with _progress(total=1) as step, Workspace(workspace, read_only=read_only) as ws:
         step("mining patterns" if kind == "patterns" else f"listing {kind}")
         result = usage_paths(
-            ws, kind, min_support=min_support, min_users=min_users, top=top, max_length=max_length, mining=mining
+            ws,
+            kind,
+            min_support=min_support,
+            min_users=min_users,
+            top=top,
+            max_length=max_length,
+            mining=mining,
+            one_per_journey=not each_pattern,
         )
     _render_paths(result, output_format)
 

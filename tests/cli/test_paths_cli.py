@@ -80,3 +80,15 @@ def test_unprofiled_workspace_for_patterns_is_one_clear_line(tmp_path: Path) -> 
     result = invoke("paths", "-w", str(tmp_path / "new.duckdb"), "--kind", "patterns")
     assert result.exit_code == 2
     assert "gapfinder profile" in result.stderr and "Traceback" not in result.output
+
+
+def test_patterns_are_one_row_per_journey_unless_each_is_asked(ws: str) -> None:
+    one = json.loads(invoke("paths", "-w", ws, "--kind", "patterns", "--format", "json", "--top", "0").stdout)
+    every = json.loads(
+        invoke("paths", "-w", ws, "--kind", "patterns", "--format", "json", "--top", "0", "--each-pattern").stdout
+    )
+    assert one["one_per_journey"] and not every["one_per_journey"]
+    assert len(one["rows"]) < len(every["rows"])
+    assert sum(r["folded"] for r in one["rows"]) + len(one["rows"]) <= len(every["rows"])
+    listed = {tuple(r["path"]) for r in every["rows"]}
+    assert all(tuple(r["path"]) in listed for r in one["rows"])
