@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import shutil
 import subprocess
 import xml.etree.ElementTree as ElementTree
@@ -113,3 +114,13 @@ def test_gaps_stay_readable_at_80_columns(suite_workspace) -> None:  # type: ign
     flat = " ".join(text.split())
     for gap in result["gaps"]:
         assert " › ".join(gap["path"]) in flat
+
+
+@pytest.mark.parametrize(("low", "high"), [(0.83, 0.91), (0.875, 0.875), (0.2, 0.95), (0.0, 1.0), (0.5, 0.56)])
+def test_chart_ticks_fall_on_round_values(low: float, high: float) -> None:
+    from gapfinder.report.html import nice_ticks
+
+    ticks = nice_ticks(low, high)
+    assert ticks[0] <= low and ticks[-1] >= high and 2 <= len(ticks) <= 7
+    steps = {round(b - a, 6) for a, b in itertools.pairwise(ticks)}
+    assert len(steps) == 1 and steps.pop() in (0.01, 0.02, 0.025, 0.05, 0.1, 0.2, 0.25, 0.5)

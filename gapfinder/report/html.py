@@ -85,6 +85,26 @@ def _coverage_bars(metrics: dict[str, Any], patterns_mined: bool) -> str:
     return "".join(out)
 
 
+def nice_ticks(low: float, high: float, *, most: int = 6) -> list[float]:
+    """Axis ticks for shares at round steps (1, 2, 2.5, 5, 10, 20, 25 or 50 points) spanning low..high.
+
+    >>> nice_ticks(0.83, 0.91)
+    [0.82, 0.84, 0.86, 0.88, 0.9, 0.92]
+    >>> nice_ticks(0.875, 0.875)
+    [0.87, 0.88]
+    """
+    low, high = max(0.0, min(low, high)), min(1.0, max(low, high))
+    for step in (0.01, 0.02, 0.025, 0.05, 0.1, 0.2, 0.25, 0.5):
+        first = math.floor(low / step + 1e-9) * step
+        last = math.ceil(high / step - 1e-9) * step
+        if last - first < step:  # a flat line: show a tick either side
+            first, last = max(0.0, first - step), min(1.0, last + step)
+        count = round((last - first) / step)
+        if count + 1 <= most + 1:
+            return [round(first + k * step, 6) for k in range(count + 1)]
+    return [0.0, 0.25, 0.5, 0.75, 1.0]
+
+
 def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
     points = [
         (t["bucket"], t["transitions_by_occurrences"]) for t in trend if t["transitions_by_occurrences"] is not None
@@ -93,10 +113,8 @@ def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
         return '<p class="note">Not enough periods for a trend yet.</p>'
     width, height, left, right, top, bottom = 760, 230, 56, 48, 16, 40
     values = [v for _, v in points]
-    low = max(0.0, math.floor((min(values) - 0.02) * 20) / 20)
-    high = min(1.0, math.ceil((max(values) + 0.02) * 20) / 20)
-    if high - low < 0.05:
-        high = min(1.0, low + 0.05)
+    ticks = nice_ticks(min(values), max(values))
+    low, high = ticks[0], ticks[-1]
     plot_w, plot_h = width - left - right, height - top - bottom
 
     def x(i: int) -> float:
@@ -109,12 +127,11 @@ def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
         f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" role="img" '
         f'aria-label="Transition coverage by {html_text(unit)}">'
     ]
-    steps = 4
-    for k in range(steps + 1):
-        v = low + (high - low) * k / steps
+    digits = 0 if all(abs(t * 100 - round(t * 100)) < 1e-9 for t in ticks) else 1
+    for v in ticks:
         out.append(f'<line x1="{left}" x2="{width - right}" y1="{y(v):.1f}" y2="{y(v):.1f}" stroke="{RULE}"/>')
         out.append(
-            f'<text x="{left - 8}" y="{y(v) + 4:.1f}" font-size="11" fill="{MUTED}" text-anchor="end">{_pct(v, 0)}</text>'
+            f'<text x="{left - 8}" y="{y(v) + 4:.1f}" font-size="11" fill="{MUTED}" text-anchor="end">{_pct(v, digits)}</text>'
         )
     line = " ".join(f"{x(i):.1f},{y(v):.1f}" for i, (_, v) in enumerate(points))
     out.append(f'<polyline points="{line}" fill="none" stroke="{TEAL}" stroke-width="2.5"/>')
