@@ -45,7 +45,8 @@ def test_html_is_well_formed_and_self_contained(data: dict) -> None:
     svg = "{http://www.w3.org/2000/svg}svg"
     assert len(list(root.iter(svg))) >= 3  # coverage bars, trend, path diagram
     assert "<script" not in html and "http://" not in html.replace("http://www.w3.org/", "")
-    assert "https://" not in html and "@import" not in html and "url(" not in html
+    # url(#…) names a marker inside the page; any other url( could fetch something
+    assert "https://" not in html and "@import" not in html and "url(" not in html.replace("url(#arrow-", "")
     for needle in (
         "How much of real usage",
         "Coverage by month",
@@ -124,3 +125,69 @@ def test_chart_ticks_fall_on_round_values(low: float, high: float) -> None:
     assert ticks[0] <= low and ticks[-1] >= high and 2 <= len(ticks) <= 7
     steps = {round(b - a, 6) for a, b in itertools.pairwise(ticks)}
     assert len(steps) == 1 and steps.pop() in (0.01, 0.02, 0.025, 0.05, 0.1, 0.2, 0.25, 0.5)
+
+
+OVERLAP_PROBE = """<script>
+window.addEventListener('load', () => {
+  const found = [];
+  document.querySelectorAll('svg').forEach((svg) => {
+    const boxes = [...svg.querySelectorAll('text')].map((t) => [t.firstChild ? t.firstChild.textContent : '',
+                                                               t.getBoundingClientRect()]);
+    for (let i = 0; i < boxes.length; i++) {
+      for (let j = i + 1; j < boxes.length; j++) {
+        const a = boxes[i][1], b = boxes[j][1];
+        if (a.width && b.width && a.left < b.right - 0.5 && b.left < a.right - 0.5 &&
+            a.top < b.bottom - 0.5 && b.top < a.bottom - 0.5) {
+          found.push(boxes[i][0] + ' / ' + boxes[j][0]);
+        }
+      }
+    }
+  });
+  document.body.setAttribute('data-overlaps', JSON.stringify(found));
+});
+</script>"""
+
+
+def _overlaps(markup: str, tmp_path: Path, width: int) -> list[str]:
+    import html as html_module
+    import json
+    import re
+
+    browser = shutil.which("chromium") or shutil.which("chromium-browser")
+    if browser is None:
+        pytest.skip("Chromium is not installed (.ci/run installs Debian's chromium when it can)")
+    page = tmp_path / f"page_{width}.html"
+    page.write_text(markup.replace("</body>", OVERLAP_PROBE + "</body>"), encoding="utf-8")
+    done = subprocess.run(
+        [
+            browser,
+            *CHROMIUM_FLAGS,
+            f"--user-data-dir={tmp_path / f'profile_{width}'}",
+            "--dump-dom",
+            f"--window-size={width},3000",
+            page.as_uri(),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    match = re.search(r'data-overlaps="([^"]*)"', done.stdout)
+    assert match, done.stderr[-2000:]
+    found: list[str] = json.loads(html_module.unescape(match.group(1)))
+    return found
+
+
+def test_the_overlap_probe_sees_an_overlap(tmp_path: Path) -> None:
+    page = (
+        '<html><body><svg xmlns="http://www.w3.org/2000/svg" width="300" height="100">'
+        '<text x="10" y="50" font-size="14">pay_deposit_card</text>'
+        '<text x="40" y="52" font-size="14">pick_slot</text>'
+        '<text x="10" y="90" font-size="14">alone</text></svg></body></html>'
+    )
+    assert _overlaps(page, tmp_path, 800) == ["pay_deposit_card / pick_slot"]
+
+
+@pytest.mark.parametrize("width", [1400, 800])
+def test_no_text_overlaps_in_the_charts_at_two_widths(data: dict, tmp_path: Path, width: int) -> None:
+    """Every chart label keeps its own space: bounding boxes from the DOM of headless Chromium."""
+    assert _overlaps(render_html(data), tmp_path, width) == []

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import itertools
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -19,12 +21,20 @@ from gapfinder.workspace import Workspace
 __all__ = ["path_diagram", "report_data"]
 
 
-def path_diagram(ws: Workspace, *, max_features: int = 12, max_edges: int = 36, min_users: int = 5) -> dict[str, Any]:
+def path_diagram(
+    ws: Workspace,
+    *,
+    max_features: int = 12,
+    max_edges: int = 36,
+    min_users: int = 5,
+    required: Sequence[Sequence[str]] = (),
+) -> dict[str, Any]:
     """The most used features and transitions, laid out left to right, each edge marked exercised or not.
 
     Layers: a feature's layer is its distance from START in the drawn graph (END last); within a
     layer, features are ordered by occurrences. Only transitions with at least ``min_users`` users
-    are drawn.
+    are drawn. Every event of the ``required`` paths (the listed gaps) is drawn, with the
+    transitions between consecutive steps of those paths, whatever their rank.
     """
     items = load_field_items(ws)
     tests = load_test_paths(ws)
@@ -32,12 +42,15 @@ def path_diagram(ws: Workspace, *, max_features: int = 12, max_edges: int = 36, 
     names = feature_names(ws.con)
     features = np.flatnonzero(items.k == 1)
     top = features[np.argsort(-items.occurrences[features], kind="stable")[:max_features]]
-    shown = {items.path(int(r))[0] for r in top} | {0, 1}
+    ids = {name: i for i, name in enumerate(names)}
+    needed = {ids[e] for path in required for e in path if e in ids}
+    shown = {items.path(int(r))[0] for r in top} | {0, 1} | needed
+    wanted = {(ids[a], ids[b]) for path in required for a, b in itertools.pairwise(path) if a in ids and b in ids}
     rows = [
         int(r) for r in np.flatnonzero((items.k == 2) & (items.users >= min_users)) if set(items.path(int(r))) <= shown
     ]
     rows.sort(key=lambda r: -int(items.occurrences[r]))
-    rows = rows[:max_edges]
+    rows = rows[:max_edges] + [r for r in rows[max_edges:] if items.path(r) in wanted]
     edges: list[dict[str, Any]] = [
         {
             "source": names[items.path(r)[0]],
@@ -100,5 +113,5 @@ def report_data(ws: Workspace, *, top: int = 10, min_users: int = 5) -> dict[str
         "gaps": gaps,
         "plan": plan,
         "drift": drift,
-        "diagram": path_diagram(ws, min_users=min_users),
+        "diagram": path_diagram(ws, min_users=min_users, required=[g["path"] for g in gaps["gaps"]]),
     }

@@ -7,10 +7,12 @@ closed, every attribute quoted) so that it can be checked with an XML parser.
 
 from __future__ import annotations
 
+import itertools
 import math
 from typing import Any
 
 from gapfinder.quoting import html_text
+from gapfinder.report.layout import layered_layout
 from gapfinder.report.markdown import p_value_text, privacy_note, suite_sentence
 
 __all__ = ["render_html"]
@@ -148,46 +150,87 @@ def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
 
 
 def _diagram(diagram: dict[str, Any]) -> str:
+    """The path diagram, laid out in layers (``report.layout``): arrowheads, loops with their counts,
+    long edges through free slots, backward edges in lanes above the boxes."""
     nodes, edges = diagram["nodes"], diagram["edges"]
     if not edges:
         return '<p class="note">No transitions above the privacy floor to draw.</p>'
-    layers: dict[int, list[str]] = {}
-    for n in nodes:
-        layers.setdefault(n["layer"], []).append(n["name"])
-    col_w, row_h, box_w, box_h, margin, arc_room = 160, 52, 136, 30, 16, 90
-    width = margin * 2 + col_w * max(layers) + box_w
-    height = arc_room + row_h * max(len(v) for v in layers.values()) + 40
-    position: dict[str, tuple[float, float]] = {}
-    for layer, members in layers.items():
-        offset = arc_room + (height - arc_room - 40 - row_h * len(members)) / 2
-        for i, name in enumerate(members):
-            position[name] = (margin + layer * col_w, offset + i * row_h + (row_h - box_h) / 2)
+    layout = layered_layout(
+        [n["name"] for n in nodes], [(e["source"], e["target"], float(e["occurrences"])) for e in edges]
+    )
+    backward_count = sum(layout.backward)
+    col_w, row_h, box_w, box_h, margin = 172, 56, 136, 30, 16
+    lane_gap = 7
+    top = 24 + lane_gap * backward_count
+    rows = max(len(members) for members in layout.layers)
+    width = margin * 2 + col_w * (len(layout.layers) - 1) + box_w
+    height = top + row_h * rows + 40
+
+    def box(x: Any) -> tuple[float, float]:
+        layer, index = layout.slot[x]
+        offset = (rows - len(layout.layers[layer])) * row_h / 2
+        return margin + layer * col_w, top + offset + index * row_h + (row_h - box_h) / 2
+
     heaviest = max(e["occurrences"] for e in edges)
     out = [
         f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height}" width="100%" role="img" '
-        'aria-label="Most used paths; amber dashed transitions are untested">'
+        'aria-label="Most used paths; amber dashed transitions are untested">',
+        "<defs>",
+        *(
+            f'<marker id="arrow-{name}" viewBox="0 0 8 8" refX="8" refY="4" markerWidth="9" markerHeight="9" '
+            f'markerUnits="userSpaceOnUse" orient="auto"><path d="M0,0 L8,4 L0,8 z" fill="{colour}"/></marker>'
+            for name, colour in (("tested", TEAL_LIGHT), ("untested", AMBER))
+        ),
+        "</defs>",
     ]
-    for e in sorted(edges, key=lambda e: e["exercised"]):
-        x1, y1 = position[e["source"]]
-        x2, y2 = position[e["target"]]
-        sx, sy = float(x1 + box_w), float(y1 + box_h / 2)
-        tx, ty = float(x2), float(y2 + box_h / 2)
-        stroke = 1 + 7 * math.sqrt(e["occurrences"] / heaviest)
-        if x2 > x1:
-            d = f"M{sx:.1f},{sy:.1f} C{sx + 40:.1f},{sy:.1f} {tx - 40:.1f},{ty:.1f} {tx:.1f},{ty:.1f}"
-        else:  # a step back or within a column: arc over the boxes
-            sx, sy, tx, ty = x1 + box_w / 2.0, float(y1), x2 + box_w / 2.0, float(y2)
-            lift = min(30 + abs(x1 - x2) / 4, y1 - 4, y2 - 4)
-            d = f"M{sx:.1f},{sy:.1f} C{sx:.1f},{sy - lift:.1f} {tx:.1f},{ty - lift:.1f} {tx:.1f},{ty:.1f}"
+    lane = 0
+    labels: list[str] = []
+    for index in sorted(range(len(edges)), key=lambda i: edges[i]["exercised"]):
+        e, route = edges[index], layout.routes[index]
+        stroke = 1 + 6 * math.sqrt(e["occurrences"] / heaviest)
         colour, dash = (TEAL_LIGHT, "") if e["exercised"] else (AMBER, ' stroke-dasharray="6 4"')
+        marker = "tested" if e["exercised"] else "untested"
         title = (
             f"{e['source']} › {e['target']}: {e['occurrences']:,} times, {'tested' if e['exercised'] else 'untested'}"
         )
+        x1, y1 = box(route[0])
+        if len(route) == 1:  # a loop: the feature follows itself
+            cx, cy = x1 + box_w - 22, y1
+            d = f"M{cx - 8:.1f},{cy:.1f} C{cx - 12:.1f},{cy - 18:.1f} {cx + 12:.1f},{cy - 18:.1f} {cx + 8:.1f},{cy:.1f}"
+            labels.append(
+                f'<text x="{cx - 16:.1f}" y="{cy - 6:.1f}" font-size="9" fill="{MUTED}" text-anchor="end">'
+                f"{e['occurrences']:,}×</text>"
+            )
+        elif layout.backward[index]:  # up into a lane above every box, across, and down into the target
+            x2, y2 = box(route[-1])
+            lane_y = 14 + lane_gap * lane
+            lane += 1
+            out_x, in_x = x1 + box_w + (col_w - box_w) / 2, x2 - (col_w - box_w) / 2
+            sy, ty = y1 + box_h / 2, y2 + box_h / 2
+            d = (
+                f"M{x1 + box_w:.1f},{sy:.1f} L{out_x:.1f},{sy:.1f} L{out_x:.1f},{lane_y:.1f} "
+                f"L{in_x:.1f},{lane_y:.1f} L{in_x:.1f},{ty:.1f} L{x2:.1f},{ty:.1f}"
+            )
+        else:  # forward, through the free slots of the layers it crosses
+            points = [(x1 + box_w, y1 + box_h / 2)]
+            for dummy in route[1:-1]:
+                dx, dy = box(dummy)
+                points += [(dx, dy + box_h / 2), (dx + box_w, dy + box_h / 2)]
+            x2, y2 = box(route[-1])
+            points.append((x2, y2 + box_h / 2))
+            d = f"M{points[0][0]:.1f},{points[0][1]:.1f}"
+            for (ax, ay), (bx, by) in itertools.pairwise(points):
+                if ay == by:
+                    d += f" L{bx:.1f},{by:.1f}"
+                else:
+                    bend = (bx - ax) / 2
+                    d += f" C{ax + bend:.1f},{ay:.1f} {bx - bend:.1f},{by:.1f} {bx:.1f},{by:.1f}"
         out.append(
-            f'<path d="{d}" fill="none" stroke="{colour}" stroke-width="{stroke:.1f}" stroke-opacity="0.8"{dash}>'
-            f"<title>{html_text(title)}</title></path>"
+            f'<path d="{d}" fill="none" stroke="{colour}" stroke-width="{stroke:.1f}" stroke-opacity="0.8"{dash} '
+            f'marker-end="url(#arrow-{marker})"><title>{html_text(title)}</title></path>'
         )
-    for name, (x, y) in position.items():
+    for name in (n["name"] for n in nodes):
+        x, y = box(name)
         fill = TEAL if name in ("START", "END") else CARD
         text = "#fff" if name in ("START", "END") else SLATE
         label = name if len(name) <= 19 else name[:18] + "…"
@@ -196,11 +239,12 @@ def _diagram(diagram: dict[str, Any]) -> str:
         )
         out.append(
             f'<text x="{x + box_w / 2:.1f}" y="{y + 19:.1f}" font-size="12" fill="{text}" text-anchor="middle">'
-            f"{html_text(label)}</text>"
+            f"{html_text(label)}<title>{html_text(name)}</title></text>"
         )
+    out += labels
     out.append(
         f'<text x="{margin}" y="{height - 8}" font-size="12" fill="{MUTED}">Line width: how often the transition is '
-        f"taken. Teal: a test exercises it. Amber, dashed: no test does.</text>"
+        f"taken; loops: a feature repeated. Teal: a test exercises it. Amber, dashed: no test does.</text>"
     )
     out.append("</svg>")
     return "".join(out)
