@@ -255,11 +255,15 @@ def _grouped_coverage(
                 "users": int(r.get(f"{group}_users") or 0),
                 "occ": 0,
                 "hit": 0,
+                "sess": 0,
+                "sess_hit": 0,
             },
         )
         g["occ"] += r["occurrences"]
+        g["sess"] += r["sessions"]
         if (names[r["a"]], names[r["b"]]) in exercised_t:
             g["hit"] += r["occurrences"]
+            g["sess_hit"] += r["sessions"]
     return groups
 
 
@@ -271,6 +275,7 @@ def _trend(ws: Workspace, period: Period, unit: str, exercised_t: set) -> list[d
         {
             "bucket": bucket.date().isoformat() if hasattr(bucket, "date") else str(bucket),
             "sessions": b["sessions"],
+            "transitions_by_sessions": b["sess_hit"] / b["sess"] if b["sess"] else None,
             "transitions_by_occurrences": b["hit"] / b["occ"] if b["occ"] else None,
         }
         for bucket, b in sorted(buckets.items())
@@ -286,6 +291,7 @@ def _segments(ws: Workspace, period: Period, by: str, exercised_t: set, min_user
             "segment": by,
             "value": value,
             "sessions": v["sessions"],
+            "transitions_by_sessions": v["sess_hit"] / v["sess"] if v["sess"] else None,
             "transitions_by_occurrences": v["hit"] / v["occ"] if v["occ"] else None,
         }
         for value, v in sorted(values.items(), key=lambda kv: -kv[1]["sessions"])

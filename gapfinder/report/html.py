@@ -108,9 +108,7 @@ def nice_ticks(low: float, high: float, *, most: int = 6) -> list[float]:
 
 
 def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
-    points = [
-        (t["bucket"], t["transitions_by_occurrences"]) for t in trend if t["transitions_by_occurrences"] is not None
-    ]
+    points = [(t["bucket"], t["transitions_by_sessions"]) for t in trend if t["transitions_by_sessions"] is not None]
     if len(points) < 2:
         return '<p class="note">Not enough periods for a trend yet.</p>'
     width, height, left, right, top, bottom = 760, 230, 56, 48, 16, 40
@@ -375,7 +373,9 @@ def render_html(data: dict[str, Any]) -> str:
         "Distinct items: the plain share of distinct items.</p></section>",
         f"<section><h2>Coverage by {html_text(data['drift']['trend_unit'])}</h2>",
         _trend_chart(data["drift"]["trend"], data["drift"]["trend_unit"]),
-        '<p class="note">Share of transition occurrences that the current suite exercises, per period of session start.</p></section>',
+        '<p class="note">Transition coverage by sessions (as everywhere in this report): of the transitions the '
+        "period's sessions take, the share the current suite exercises, each weighted by the sessions that take "
+        "it.</p></section>",
         "<section><h2>Where people go and the tests do not</h2>",
         _diagram(data["diagram"]),
         "</section>",

@@ -128,12 +128,10 @@ def render_markdown(data: dict[str, Any]) -> str:
         "",
         f"## Coverage by {drift['trend_unit']}",
         "",
-        "| from | sessions | transitions exercised |",
+        "| from | sessions | transitions exercised, by sessions |",
         "|---|---|---|",
     ]
-    lines += [
-        f"| {t['bucket']} | {t['sessions']:,} | {_pct(t['transitions_by_occurrences'])} |" for t in drift["trend"]
-    ]
+    lines += [f"| {t['bucket']} | {t['sessions']:,} | {_pct(t['transitions_by_sessions'])} |" for t in drift["trend"]]
     lines += [
         "",
         "## Untested paths most worth a test",

@@ -564,20 +564,23 @@ def render_audit(result: dict[str, Any], console: Console) -> None:
         )
     console.print(coverage)
     trend = _table(
-        f"Transition coverage by {result['trend_unit']}",
+        f"Transition coverage by {result['trend_unit']}, weighted by sessions",
         ("from", "left"),
         ("sessions", "right"),
         ("exercised", "right"),
     )
     for t in result["trend"]:
-        trend.add_row(t["bucket"], f"{t['sessions']:,}", _opt_pct(t["transitions_by_occurrences"]))
+        trend.add_row(t["bucket"], f"{t['sessions']:,}", _opt_pct(t["transitions_by_sessions"]))
     console.print(trend)
     if result.get("segments"):
         seg = _table(
-            "Coverage by segment (current period)", ("segment", "left"), ("sessions", "right"), ("exercised", "right")
+            "Transition coverage by segment (current period), weighted by sessions",
+            ("segment", "left"),
+            ("sessions", "right"),
+            ("exercised", "right"),
         )
         for s in result["segments"]:
-            seg.add_row(f"{s['segment']} {s['value']}", f"{s['sessions']:,}", _opt_pct(s["transitions_by_occurrences"]))
+            seg.add_row(f"{s['segment']} {s['value']}", f"{s['sessions']:,}", _opt_pct(s["transitions_by_sessions"]))
         console.print(seg)
     for t in result["irrelevant_tests"]:
         console.print(

@@ -27,7 +27,7 @@ def test_audit_json_and_table(ws: str) -> None:
     assert result.exit_code == 0, result.output
     assert json.loads(result.stdout)["movers"][0]["path"][0] == "join_waitlist"
     table = invoke(*args, "--by", "app_version")
-    assert table.exit_code == 0 and "Moved most" in table.stdout and "Coverage by segment" in table.stdout
+    assert table.exit_code == 0 and "Moved most" in table.stdout and "coverage by segment" in table.stdout
 
 
 def test_check_exit_codes(ws: str) -> None:
@@ -50,3 +50,18 @@ def test_report_writes_html_and_markdown(ws: str, tmp_path: Path) -> None:
     assert html.read_text().startswith("<!DOCTYPE html>") and md.read_text().startswith("# Test coverage")
     missing = invoke("report", "-w", ws)
     assert missing.exit_code == 2
+
+
+def test_check_fails_on_a_release_that_brought_an_untested_journey(ws: str) -> None:
+    with_suite(ws)
+    # the waitlist rolled out on 2026-04-01, the first day of the data's recent half: it is new
+    result = invoke("check", "-w", ws, "--max-new-gaps", "0")
+    assert result.exit_code == 1, result.output
+
+
+def test_the_trend_is_weighted_by_sessions(ws: str) -> None:
+    with_suite(ws)
+    data = json.loads(invoke("audit", "-w", ws, "--format", "json").stdout)
+    for point in data["trend"]:
+        assert 0 <= point["transitions_by_sessions"] <= 1
+    assert data["current"]["from"] == "2026-04-01" and data["previous"]["to"] == "2026-03-31"
