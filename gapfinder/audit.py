@@ -22,7 +22,7 @@ import itertools
 import json
 import re
 from dataclasses import dataclass, field
-from datetime import UTC, date, datetime, timedelta
+from datetime import UTC, date, timedelta, tzinfo
 from typing import Any
 
 import duckdb
@@ -32,7 +32,7 @@ from gapfinder.errors import ConfigError, InputError
 from gapfinder.mining import SequenceDatabase, containing_sequences
 from gapfinder.paths import feature_names
 from gapfinder.patterns import profile_included_automated
-from gapfinder.periods import Period, split_in_halves
+from gapfinder.periods import Period, midnight, split_in_halves, time_zone
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts
 from gapfinder.stats import difference_interval, jensen_shannon_distance, two_proportion_z_test
@@ -44,7 +44,7 @@ SEGMENTS = ("app_version", "platform")
 START, END = "START", "END"
 
 
-def parse_period(text: str, option: str = "--period") -> Period:
+def parse_period(text: str, option: str = "--period", zone: tzinfo = UTC) -> Period:
     """``YYYY-MM-DD..YYYY-MM-DD`` (both days included) as a Period.
 
     Examples
@@ -63,9 +63,7 @@ def parse_period(text: str, option: str = "--period") -> Period:
         raise ConfigError(f"{option} {text!r}: the last day comes before the first")
     if first.year < 1990 or last.year > 2099:
         raise ConfigError(f"{option} {text!r}: give days between 1990 and 2099 (telemetry outside is rejected)")
-    start = datetime(first.year, first.month, first.day, tzinfo=UTC)
-    end = datetime(last.year, last.month, last.day, tzinfo=UTC) + timedelta(days=1)
-    return Period(start, end, text.strip())
+    return Period(midnight(first, zone), midnight(last + timedelta(days=1), zone), text.strip())
 
 
 @dataclass(frozen=True)
@@ -79,8 +77,10 @@ class AuditOptions:
     trend: str = "month"
     top: int = 10
     min_users: int = DEFAULT_MIN_USERS
+    tz: str | None = None  # the time zone whose midnights cut days (default UTC)
 
     def __post_init__(self) -> None:
+        time_zone(self.tz)
         if self.by is not None and self.by not in SEGMENTS:
             raise ConfigError(f"--by {self.by!r}: give one of {', '.join(SEGMENTS)}")
         if self.trend not in ("week", "month"):
@@ -125,11 +125,11 @@ def _counts(con: duckdb.DuckDBPyConnection, period: Period) -> PeriodCounts:
     return counts
 
 
-def _default_periods(con: duckdb.DuckDBPyConnection) -> tuple[Period, Period]:
+def _default_periods(con: duckdb.DuckDBPyConnection, zone: tzinfo = UTC) -> tuple[Period, Period]:
     row = fetch_dicts(con, "summarize_session_window", include_automated=profile_included_automated(con))[0]
     if not row["sessions"]:
         raise ConfigError("the workspace has no sessions to audit")
-    earlier, recent = split_in_halves(row["first_start"], row["last_start"])
+    earlier, recent = split_in_halves(row["first_start"], row["last_start"], zone)
     return recent, earlier
 
 
@@ -310,7 +310,7 @@ def audit(ws: Workspace, options: AuditOptions | None = None) -> dict[str, Any]:
             other.require("sessions", "features", hint="profile the other workspace first")
             before = _counts(other.con, Period(None, None, options.against_workspace))
     else:
-        default_now, default_before = _default_periods(ws.con)
+        default_now, default_before = _default_periods(ws.con, time_zone(options.tz))
         current_period = options.period or default_now
         before_period = options.against or default_before
         before = _counts(ws.con, before_period)

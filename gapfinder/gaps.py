@@ -41,7 +41,7 @@ from gapfinder.mining import containing_sequences
 from gapfinder.occurrences import first_occurrences
 from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated
-from gapfinder.periods import Period, split_in_halves
+from gapfinder.periods import Period, split_in_halves, time_zone
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_dicts, registered
 from gapfinder.stats import ratio_interval, wilson_interval
@@ -85,8 +85,10 @@ class GapOptions:
     kinds: tuple[str, ...] = GAP_KINDS
     pool: int = 300
     confidence: float = 0.95
+    tz: str | None = None  # the time zone whose midnights cut the data into halves (default UTC)
 
     def __post_init__(self) -> None:
+        time_zone(self.tz)
         unknown = [k for k in self.kinds if k not in GAP_KINDS]
         if unknown:
             raise ConfigError(f"--kind {', '.join(unknown)}: give one of {', '.join(GAP_KINDS)}")
@@ -470,7 +472,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
     include_automated = profile_included_automated(con)
     window = fetch_dicts(con, "summarize_session_window", include_automated=include_automated)[0]
     if window["sessions"]:
-        earlier_half, recent_half = split_in_halves(window["first_start"], window["last_start"])
+        earlier_half, recent_half = split_in_halves(window["first_start"], window["last_start"], time_zone(options.tz))
     else:
         earlier_half = recent_half = Period(None, None, "")
     baseline = fetch_dicts(

@@ -112,6 +112,7 @@ def run_gate(
     baseline: str | None = None,
     max_gap: int = 0,
     min_users: int = 5,
+    tz: str | None = None,
 ) -> dict[str, Any]:
     """Evaluate every check; ``passed`` is True only when all of them hold."""
     if not floors and max_new_gaps is None:
@@ -136,7 +137,7 @@ def run_gate(
                 }
             )
     if max_new_gaps is not None:
-        gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users))["gaps"]
+        gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users, tz=tz))["gaps"]
         if baseline:
             known = _baseline_paths(baseline)
             new = [g for g in gaps if tuple(g["path"]) not in known]

@@ -143,7 +143,7 @@ def _run_into(
         say("mining journeys")
         mined = mine_workspace(ws, mining or MiningOptions())
         say("ranking gaps")
-        gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users))
+        gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users, tz=(plan or PlanOptions()).tz))
         unused = unused_tests(ws, min_users=min_users)
         say("planning scenarios")
         planned = make_plan(ws, plan or PlanOptions(min_users=min_users))

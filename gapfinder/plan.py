@@ -77,6 +77,7 @@ class PlanOptions:
     objective: str = "transitions"
     candidates: int = 30
     min_users: int = 5
+    tz: str | None = None  # for the gaps' trends: the time zone whose midnights cut days
 
     def __post_init__(self) -> None:
         if self.budget < 1:
@@ -267,7 +268,7 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
     items = load_field_items(ws)
     if options.objective == "patterns" and not items.patterns:
         raise ConfigError("--objective patterns: no mined patterns yet; run `gapfinder paths --kind patterns` first")
-    gap_result = find_gaps(ws, GapOptions(top=options.candidates, min_users=options.min_users))
+    gap_result = find_gaps(ws, GapOptions(top=options.candidates, min_users=options.min_users, tz=options.tz))
     model = load_usage_model(ws.con)
     names = feature_names(ws.con)
     ids = {name: i for i, name in enumerate(names)}

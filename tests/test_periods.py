@@ -69,3 +69,21 @@ def test_a_rollout_on_the_cut_day_is_new(tmp_path: Path, rollout: str, label: st
     assert result["periods"]["earlier"]["sessions"] + result["periods"]["recent"]["sessions"] == 400
     if label == "rising":
         assert beta["trend"]["ratio_low"] > 1
+
+
+def test_days_can_be_cut_at_another_zones_midnight() -> None:
+    from zoneinfo import ZoneInfo
+
+    zone = ZoneInfo("America/Los_Angeles")
+    first = datetime(2026, 1, 1, 6, tzinfo=UTC)  # still 31 December in Los Angeles
+    last = datetime(2026, 1, 10, 12, tzinfo=UTC)
+    earlier, recent = split_in_halves(first, last, zone)
+    assert earlier.label == "2025-12-31..2026-01-04" and recent.label == "2026-01-05..2026-01-10"
+    assert recent.start == datetime(2026, 1, 5, tzinfo=zone)  # midnight there, 08:00 UTC
+
+
+def test_an_unknown_zone_is_refused() -> None:
+    from gapfinder.errors import ConfigError
+
+    with pytest.raises(ConfigError, match="--tz 'Mars/Olympus'"):
+        GapOptions(tz="Mars/Olympus")

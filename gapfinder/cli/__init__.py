@@ -110,6 +110,15 @@ def workspace_option(func: F) -> F:
     )(func)
 
 
+def tz_option(func: F) -> F:
+    """``--tz``: the time zone whose midnights cut the data into days and halves (default UTC)."""
+    return click.option(
+        "--tz",
+        metavar="ZONE",
+        help="Time zone whose midnights cut the data into days and halves, e.g. Europe/Lisbon (default: UTC).",
+    )(func)
+
+
 def min_users_option(what: str = "rows") -> Callable[[F], F]:
     """The privacy floor shared by every command that lists paths."""
 
@@ -615,8 +624,11 @@ def coverage(workspace: str, max_gap: int, min_users: int, output_format: str) -
     type=click.IntRange(min=0),
     help="Steps a test may have between a path's items and still exercise it (0: contiguous).",
 )
+@tz_option
 @output_options
-def gaps(workspace: str, top: int, min_users: int, kinds: tuple[str, ...], max_gap: int, output_format: str) -> None:
+def gaps(
+    workspace: str, top: int, min_users: int, kinds: tuple[str, ...], max_gap: int, tz: str | None, output_format: str
+) -> None:
     """The common paths no test exercises, ranked, with the evidence for each.
 
     Each gap gives the path, sessions, distinct users, share of sessions with a 95 % Wilson
@@ -627,7 +639,7 @@ def gaps(workspace: str, top: int, min_users: int, kinds: tuple[str, ...], max_g
     from gapfinder.gaps import GAP_KINDS, GapOptions, find_gaps
     from gapfinder.workspace import Workspace
 
-    options = GapOptions(top=top, min_users=min_users, kinds=kinds or GAP_KINDS, max_gap=max_gap)
+    options = GapOptions(top=top, min_users=min_users, kinds=kinds or GAP_KINDS, max_gap=max_gap, tz=tz)
     with Workspace(workspace, read_only=True) as ws:
         result = find_gaps(ws, options)
     fields = ["rank", "kind", "path", "sessions", "users", "share", "share_low", "share_high", "error_rate"]
@@ -714,9 +726,17 @@ def unused(workspace: str, max_share: float, max_gap: int, min_users: int, outpu
     help="Top gaps turned into candidate scenarios.",
 )
 @min_users_option("gaps")
+@tz_option
 @output_options
 def plan(
-    workspace: str, budget: int, cost: str, objective: str, candidates: int, min_users: int, output_format: str
+    workspace: str,
+    budget: int,
+    cost: str,
+    objective: str,
+    candidates: int,
+    min_users: int,
+    tz: str | None,
+    output_format: str,
 ) -> None:
     """Choose next sprint's scenarios: the set within the budget that buys the most coverage.
 
@@ -727,7 +747,9 @@ def plan(
     from gapfinder.plan import PlanOptions, make_plan
     from gapfinder.workspace import Workspace
 
-    options = PlanOptions(budget=budget, cost=cost, objective=objective, candidates=candidates, min_users=min_users)
+    options = PlanOptions(
+        budget=budget, cost=cost, objective=objective, candidates=candidates, min_users=min_users, tz=tz
+    )
     with Workspace(workspace, read_only=not os.path.exists(workspace)) as ws:
         result = make_plan(ws, options)
     columns = ["scenario", "path", "steps", "gain", "gain_share", "gaps", "sessions", "users", "share", "reason"]
@@ -798,6 +820,7 @@ def export(workspace: str, to: str, as_format: str, force: bool, phrases: str | 
     "--top", default=10, show_default=True, type=click.IntRange(min=1), help="Movers, new and vanished paths to list."
 )
 @min_users_option("paths")
+@tz_option
 @output_options
 def audit_command(
     workspace: str,
@@ -808,6 +831,7 @@ def audit_command(
     trend: str,
     top: int,
     min_users: int,
+    tz: str | None,
     output_format: str,
 ) -> None:
     """How usage and coverage moved between two periods, or against another workspace.
@@ -818,16 +842,19 @@ def audit_command(
     tests whose journey left the field.
     """
     from gapfinder.audit import AuditOptions, audit, parse_period
+    from gapfinder.periods import time_zone
     from gapfinder.workspace import Workspace
 
+    zone = time_zone(tz)
     options = AuditOptions(
-        period=parse_period(period) if period else None,
-        against=parse_period(against, "--against") if against else None,
+        period=parse_period(period, zone=zone) if period else None,
+        against=parse_period(against, "--against", zone=zone) if against else None,
         against_workspace=against_workspace,
         by=by,
         trend=trend,
         top=top,
         min_users=min_users,
+        tz=tz,
     )
     with Workspace(workspace, read_only=True) as ws:
         result = audit(ws, options)
@@ -878,6 +905,7 @@ def audit_command(
     "--max-gap", default=0, show_default=True, type=click.IntRange(min=0), help="Lenient matching for coverage."
 )
 @min_users_option("gaps")
+@tz_option
 @output_options
 def check(
     workspace: str,
@@ -887,6 +915,7 @@ def check(
     baseline: str | None,
     max_gap: int,
     min_users: int,
+    tz: str | None,
     output_format: str,
 ) -> None:
     """A gate for the test pipeline: exit 0 when coverage holds its floors, 1 when it slips.
@@ -900,7 +929,14 @@ def check(
     parsed = [parse_floor(f) for f in floors]
     with Workspace(workspace, read_only=True) as ws:
         result = run_gate(
-            ws, parsed, max_new_gaps=max_new_gaps, top=top, baseline=baseline, max_gap=max_gap, min_users=min_users
+            ws,
+            parsed,
+            max_new_gaps=max_new_gaps,
+            top=top,
+            baseline=baseline,
+            max_gap=max_gap,
+            min_users=min_users,
+            tz=tz,
         )
     if output_format == "json":
         _emit_json(result)
@@ -929,7 +965,10 @@ def check(
 @click.option("--markdown", "markdown_path", type=click.Path(dir_okay=False), help="Write the Markdown report here.")
 @click.option("--top", default=10, show_default=True, type=click.IntRange(min=1), help="Gaps in the report.")
 @min_users_option("paths")
-def report(workspace: str, html_path: str | None, markdown_path: str | None, top: int, min_users: int) -> None:
+@tz_option
+def report(
+    workspace: str, html_path: str | None, markdown_path: str | None, top: int, min_users: int, tz: str | None
+) -> None:
     """Write the coverage report: one self-contained HTML page and/or a Markdown page.
 
     Headline coverage by metric, its trend by month, a diagram of the most used paths with the
@@ -944,7 +983,7 @@ def report(workspace: str, html_path: str | None, markdown_path: str | None, top
     if not html_path and not markdown_path:
         raise click.UsageError("give -o FILE.html and/or --markdown FILE.md")
     with Workspace(workspace, read_only=True) as ws:
-        data = report_data(ws, top=top, min_users=min_users)
+        data = report_data(ws, top=top, min_users=min_users, tz=tz)
     pages = [(p, render(data)) for p, render in ((html_path, render_html), (markdown_path, render_markdown)) if p]
     for path, _text in pages:  # both checked before either is written
         if not Path(path).parent.is_dir():

@@ -6,7 +6,7 @@ from typing import Any
 
 import click
 
-from gapfinder.cli import _progress, cli, min_users_option, profile_options, profile_options_from
+from gapfinder.cli import _progress, cli, min_users_option, profile_options, profile_options_from, tz_option
 from gapfinder.cli.suite_commands import print_problems, suite_options, suite_options_from
 
 
@@ -29,6 +29,7 @@ from gapfinder.cli.suite_commands import print_problems, suite_options, suite_op
 @click.option("--top", default=10, show_default=True, type=click.IntRange(min=1), help="Gaps in the summary.")
 @min_users_option("paths")
 @click.option("--force", is_flag=True, help="Overwrite skeleton files that exist and differ (never implemented steps).")
+@tz_option
 @profile_options
 @suite_options(map_alias=False)
 def run_all(
@@ -39,6 +40,7 @@ def run_all(
     top: int,
     min_users: int,
     force: bool,
+    tz: str | None,
     **values: Any,
 ) -> None:
     """The whole job at once: profile, suite, journeys, gaps, plan, skeletons and a Markdown summary.
@@ -61,7 +63,7 @@ def run_all(
             out,
             profile=profile,
             suite=suite,
-            plan=PlanOptions(budget=budget, min_users=min_users),
+            plan=PlanOptions(budget=budget, min_users=min_users, tz=tz),
             top=top,
             min_users=min_users,
             force=force,

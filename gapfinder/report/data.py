@@ -97,14 +97,14 @@ def _layers(edges: list[dict[str, Any]]) -> dict[str, int]:
     return layer
 
 
-def report_data(ws: Workspace, *, top: int = 10, min_users: int = 5) -> dict[str, Any]:
+def report_data(ws: Workspace, *, top: int = 10, min_users: int = 5, tz: str | None = None) -> dict[str, Any]:
     """Profile, coverage, gaps, plan (when one is stored), drift and the path diagram."""
     ws.require("suite_tests", hint="run `gapfinder suite TRACES... -w ...` first")
     profile = summarize_profile(ws, top=5, min_users=min_users)
     coverage = compute_coverage_report(ws)
-    gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users))
+    gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users, tz=tz))
     plan = load_plan(ws) if ws.has_table("plan_scenarios") else None
-    drift = audit(ws, AuditOptions(top=8, min_users=min_users))
+    drift = audit(ws, AuditOptions(top=8, min_users=min_users, tz=tz))
     return {
         "version": __version__,
         "workspace": str(ws.path),

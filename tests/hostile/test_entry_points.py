@@ -370,6 +370,8 @@ CASES: dict[str, Case] = {
         "--tags",
         "not",
     ],
+    "gaps-tz-unknown": lambda f, w: ["gaps", "-w", w, "--tz", "Mars/Olympus"],
+    "audit-tz-unknown": lambda f, w: ["audit", "-w", w, "--tz", "Nowhere/At_All"],
     # --- listing, gate, audit, export, report ---
     "paths-missing-workspace": lambda f, w: ["paths", "-w", str(f / "none.duckdb")],
     "paths-kind-bogus": lambda f, w: ["paths", "-w", w, "--kind", "everything"],
