@@ -6,7 +6,8 @@ resolved, in order, by an exact match, the alias file, or a match after normaliz
 case folding, camelCase split, common UI phrasings reduced to one word: ``sign in``/``log in`` →
 ``login``, ``create account``/``register`` → ``signup``). What remains is left unmapped and listed;
 ``NameAligner`` suggests events for each: it scores every (step, event) pair by the cosine
-similarity of TF-IDF vectors over word stems and over character n-grams (scikit-learn), averaged;
+similarity of TF-IDF vectors over word stems and over character n-grams (scikit-learn), averaged
+and scaled by the square root of the share of the step's words that some event uses;
 a pair whose words are opposites (in/out, open/close, add/remove, create/delete, join/leave, …) or
 where the step cancels or undoes something the event does not, scores 0. Each step gets its best
 three candidates with their scores; many steps may map to one event. A person reviews the alias
@@ -15,6 +16,7 @@ file it writes.
 
 from __future__ import annotations
 
+import math
 import unicodedata
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
@@ -338,8 +340,13 @@ class NameAligner:
         chars = (self.char_vectorizer_.transform([_spaced(s) for s in steps]) @ self.char_matrix_.T).toarray()
         words = (self.word_vectorizer_.transform(list(steps)) @ self.word_matrix_.T).toarray()
         scores = self.word_weight * words + (1 - self.word_weight) * chars
+        vocabulary = self.word_vectorizer_.vocabulary_
         for i, step in enumerate(steps):
             step_words = set(canonical_words(step))
+            # a step word no event has ("cash", "profile") is meaning the events cannot account for
+            stems = {_stem(w) for w in step_words if w != "{}"}
+            if stems:
+                scores[i] *= math.sqrt(sum(1 for w in stems if w in vocabulary) / len(stems))
             for j, event_words in enumerate(self.event_words_):
                 if _opposed(step_words, event_words):
                     scores[i, j] = 0.0
