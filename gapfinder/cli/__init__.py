@@ -632,9 +632,11 @@ def gaps(
     """The common paths no test exercises, ranked, with the evidence for each.
 
     Each gap gives the path, sessions, distinct users, share of sessions with a 95 % Wilson
-    interval, error rate against the baseline, trend, the segments it concentrates on and a
-    one-line reason. Related gaps are folded under the best-ranked one. Run `gapfinder paths
-    --kind patterns` first to include mined journeys.
+    interval, the errors on its own steps and on the step right after (against the same events
+    elsewhere), its trend between the data's two halves, the segments it concentrates on, example
+    complete sessions and a one-line reason. Gaps that share more than half of their sessions are
+    one row per journey, the others folded under it. Run `gapfinder paths --kind patterns` first to
+    include mined journeys.
     """
     from gapfinder.gaps import GAP_KINDS, GapOptions, find_gaps
     from gapfinder.workspace import Workspace
