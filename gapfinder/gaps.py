@@ -308,6 +308,7 @@ def _pinned_errors(
     event_error_rate: float,
     names: list[str],
     confidence: float,
+    nameable: set[int],
 ) -> dict[str, Any]:
     """Errors on the path's own steps and on the step right after, each against the same events'
     rate elsewhere; the risk factor comes from the step whose failures are least likely chance."""
@@ -339,7 +340,8 @@ def _pinned_errors(
     # what the events that came next fail at anywhere (their mix differs from gap to gap)
     expected = float(ev["next_expected_rate"]) if ev.get("next_expected_rate") is not None else event_error_rate
     after: dict[str, Any] = {
-        "event": names[int(next_event)] if next_event is not None else None,
+        # the next event is named only when enough people take it (a rare event's name may identify someone)
+        "event": names[int(next_event)] if next_event is not None and int(next_event) in nameable else None,
         "sessions": next_sessions,
         "failed_sessions": next_failed,
         "rate": next_failed / next_sessions if next_sessions else 0.0,
@@ -418,10 +420,11 @@ def _reason(gap: dict[str, Any], names_of_kind: dict[str, str]) -> str:
             f"(95 % interval {100 * worst['rate_low']:.1f}–{100 * worst['rate_high']:.1f} %), "
             + (f"{worst['lift']:.1f}× its rate elsewhere" if worst["lift"] else "and it never fails elsewhere")
         )
-    if after["risk"] > 1 and after["event"] is not None:
+    if after["risk"] > 1:
+        which = f" (most often {after['event']})" if after["event"] is not None else ""
         parts.append(
-            f"the step right after fails in {100 * after['rate']:.1f} % of these sessions (most often "
-            f"{after['event']}), {after['rate'] / after['rate_elsewhere']:.1f}× what those next events fail at overall"
+            f"the step right after fails in {100 * after['rate']:.1f} % of these sessions{which}, "
+            f"{after['rate'] / after['rate_elsewhere']:.1f}× what those next events fail at overall"
         )
     trend = gap["trend"]
     if trend["label"] == "new":
@@ -555,6 +558,8 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
                 {"segment": r["segment"], "value": r["value"], "share_of_gap": gap_share, "lift": lift}
             )
 
+    features = np.flatnonzero((items.k == 1) & (items.users >= options.min_users))
+    nameable = {items.path(int(r))[0] for r in features}
     ranked: list[dict[str, Any]] = []
     for index, cand in enumerate(pool):
         ev = evidence.get(index)
@@ -562,7 +567,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             continue
         sessions = int(ev["sessions"])
         low, high = wilson_interval(sessions, total, confidence=options.confidence)
-        pinned = _pinned_errors(cand.path, ev, totals, event_error_rate, names, options.confidence)
+        pinned = _pinned_errors(cand.path, ev, totals, event_error_rate, names, options.confidence, nameable)
         gap: dict[str, Any] = {
             "kind": cand.kind,
             "path": [names[e] for e in cand.path],

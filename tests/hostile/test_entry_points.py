@@ -47,6 +47,18 @@ def _catalog(folder: Path, text: str, name: str = "catalog.yaml") -> str:
     return _csv(folder / name, text)
 
 
+def _add_vanished(folder: Path, ws: str) -> None:
+    """Store a suite read from a file that is then deleted, so that `--add` must read it again."""
+    from gapfinder.suite import load_suite
+    from gapfinder.workspace import Workspace
+
+    gone = folder / "gone.yaml"
+    gone.write_text("tests:\n  - {id: t, steps: [login]}\n")
+    with Workspace(ws) as workspace:
+        load_suite(workspace, [gone])
+    gone.unlink()
+
+
 def _plan_ws(ws: str) -> str:
     """The workspace with a stored plan (for export cases)."""
     from gapfinder.plan import PlanOptions, make_plan
@@ -372,6 +384,23 @@ CASES: dict[str, Case] = {
     ],
     "gaps-tz-unknown": lambda f, w: ["gaps", "-w", w, "--tz", "Mars/Olympus"],
     "audit-tz-unknown": lambda f, w: ["audit", "-w", w, "--tz", "Nowhere/At_All"],
+    "steps-map-beside-features-invalid": lambda f, w: [
+        "suite",
+        (
+            _csv(f / "x.feature", "Feature: f\n  Scenario: s\n    Given a\n"),
+            _csv(f / "gapfinder_steps.yaml", 'steps:\n  "(unclosed": login\n'),
+            str(f),
+        )[-1],
+        "-w",
+        w,
+    ],
+    "suite-add-to-a-vanished-source": lambda f, w: [
+        "suite",
+        "sample_telemetry/tests/suite_traces.csv",
+        "--add",
+        "-w",
+        (lambda ws: (_add_vanished(f, ws), ws)[1])(w),
+    ],
     # --- listing, gate, audit, export, report ---
     "paths-missing-workspace": lambda f, w: ["paths", "-w", str(f / "none.duckdb")],
     "paths-kind-bogus": lambda f, w: ["paths", "-w", w, "--kind", "everything"],
@@ -417,6 +446,13 @@ CASES: dict[str, Case] = {
         _bytes(f / "o.duckdb", b"junk" * 50),
     ],
     "export-to-a-file": lambda f, w: ["export", "-w", _plan_ws(w), "--to", _csv(f / "afile", "x")],
+    "export-over-a-broken-step-registry": lambda f, w: [
+        "export",
+        "-w",
+        _plan_ws(w),
+        "--to",
+        ((f / "out").mkdir() or _csv(f / "out" / "gapfinder_steps.py", "def oops(:\n")) and str(f / "out"),
+    ],
     "export-phrases-invalid": lambda f, w: [
         "export",
         "-w",
