@@ -243,6 +243,7 @@ def generate_demo(
     events: int = 200_000,
     seed: int = 7,
     users_per_session: float = 0.2,
+    as_format: str = "parquet",
 ) -> DemoResult:
     """Write field telemetry (hive-partitioned Parquet by month), the suite's traces and a manifest.
 
@@ -251,13 +252,17 @@ def generate_demo(
     out: the folder to write (``field/``, ``tests/suite_traces.csv``, ``manifest.json``).
     events: about how many field events to generate (the automated account adds about 1 %).
     seed: the random seed; the same seed gives the same files.
+    as_format: ``parquet`` (``field/month=YYYY-MM/events.parquet``) or ``otlp`` (OpenTelemetry logs,
+        ``field/logs-YYYY-MM.jsonl.gz``, one export request per line).
     """
+    if as_format not in ("parquet", "otlp"):
+        raise ConfigError(f"--as {as_format!r}: use parquet or otlp")
     if events < 1_000:
         raise ConfigError(f"--events {events}: the demo needs at least 1000 events")
     rng = np.random.default_rng(seed)
     target = Path(out)
     field_dir = target / "field"
-    if field_dir.exists() and any(field_dir.rglob("*.parquet")):
+    if field_dir.exists() and any(field_dir.iterdir()):
         raise ConfigError(f"{field_dir} already holds Parquet files: choose an empty --out folder")
 
     # Sessions: start times uniform over six months, journeys by quarter.
@@ -346,6 +351,8 @@ def generate_demo(
     columns["outcome"] = np.concatenate([columns["outcome"], np.full(bot_n, "ok")])
 
     field_files = _write_field(field_dir, columns)
+    if as_format == "otlp":
+        field_files = _parquet_to_otlp_logs(field_files)
     suite_file = _write_suite(target / "tests")
     staging_files = _write_staging_run(target / "staging_run")
     manifest = {
@@ -429,6 +436,28 @@ def _write_field(field_dir: Path, columns: dict[str, Any]) -> list[Path]:
         path = folder / "events.parquet"
         pq.write_table(table, path, compression="zstd", row_group_size=1_000_000)
         written.append(path)
+    return written
+
+
+def _parquet_to_otlp_logs(parquet_files: list[Path]) -> list[Path]:
+    """Rewrite each month's Parquet file as OTLP/JSON logs beside its folder, then remove it."""
+    from gapfinder.sql import run
+    from gapfinder.workspace import connect_memory
+
+    written = []
+    con = connect_memory()
+    try:
+        for parquet in parquet_files:
+            month = parquet.parent.name.partition("=")[2]
+            target = parquet.parent.parent / f"logs-{month}.jsonl.gz"
+            partial = target.with_name(target.name + ".partial")
+            run(con, "write_demo_otlp_logs", files=[str(parquet)], path=str(partial))
+            os.replace(partial, target)
+            parquet.unlink()
+            parquet.parent.rmdir()
+            written.append(target)
+    finally:
+        con.close()
     return written
 
 

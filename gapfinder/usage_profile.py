@@ -28,8 +28,9 @@ from gapfinder.paths import (
 )
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.report.markdown import privacy_note
-from gapfinder.sessions import SessionOptions, build_sessions, count_source_rows
-from gapfinder.sources import open_telemetry
+from gapfinder.sessions import MAX_FEATURES, SessionOptions, build_sessions, count_source_rows
+from gapfinder.sources import OpenedSource, open_telemetry
+from gapfinder.sources.feature_keys import FeatureKeys
 from gapfinder.sql import fetch_dicts, registered, run
 from gapfinder.usage_model import END, START, UsageModel
 from gapfinder.workspace import StageRecord, Workspace, open_for_stage
@@ -44,6 +45,7 @@ class ProfileOptions:
     """Everything ``profile`` can be told; the defaults suit most product telemetry."""
 
     mapping: dict[str, str] = field(default_factory=dict)
+    feature_keys: FeatureKeys = field(default_factory=FeatureKeys)
     ts_unit: str | None = None
     ts_format: str | None = None
     sessions: SessionOptions = field(default_factory=SessionOptions)
@@ -131,6 +133,7 @@ def profile_telemetry(
             inputs=[os.fspath(i) for i in inputs],
             parameters={
                 "mapping": options.mapping,
+                "feature_keys": options.feature_keys.as_parameters(),
                 "ts_unit": options.ts_unit,
                 "ts_format": options.ts_format,
                 "sessions": options.sessions.as_parameters(),
@@ -140,61 +143,88 @@ def profile_telemetry(
             },
         )
         say("reading telemetry")
-        source = open_telemetry(ws.con, inputs, options.mapping, ts_unit=options.ts_unit, ts_format=options.ts_format)
+        source = open_telemetry(
+            ws.con,
+            inputs,
+            options.mapping,
+            ts_unit=options.ts_unit,
+            ts_format=options.ts_format,
+            feature_keys=options.feature_keys,
+            max_names=MAX_FEATURES,
+        )
+        try:
+            return _profile_source(ws, source, record, options, say=say, top=top, min_users=min_users)
+        finally:
+            source.close()
+
+
+def _profile_source(
+    ws: Workspace,
+    source: OpenedSource,
+    record: StageRecord,
+    options: ProfileOptions,
+    *,
+    say: Progress,
+    top: int,
+    min_users: int,
+) -> dict[str, Any]:
+    with _reading(source.files.label):
+        counts = count_source_rows(ws.con, options.sessions)
+    if counts.rows_read == 0:
+        raise InputError(f"{source.files.label}: no events in the input (0 rows)")
+    if counts.usable_rows - counts.noise_dropped <= 0:
+        reasons = ", ".join(f"{n} {r}" for r, n in counts.rejected.items()) or "all were noise"
+        raise InputError(f"{source.files.label}: none of {counts.rows_read} rows is usable ({reasons})")
+    reading = {
+        "label": source.files.label,
+        "format": source.files.format,
+        "file_count": source.file_count,
+        "mapping": source.mapping,
+        "timestamp": source.timestamp.describe(),
+        "naive_timestamps": counts.naive_timestamps,
+        "rows_read": counts.rows_read,
+        "usable_rows": counts.usable_rows,
+        "rejected": counts.rejected,
+        "noise_dropped": counts.noise_dropped,
+        "first_ts": _iso(counts.first_ts),
+        "last_ts": _iso(counts.last_ts),
+        "formed_by": (
+            f"the input's session column {source.mapping['session_id']!r}"
+            if source.has_session_column
+            else f"idle gaps longer than {options.sessions.idle_minutes:g} minutes"
+        ),
+        "segment_columns": source.segment_columns,
+        "notes": source.notes,
+        "feature_keys": source.feature_keys.as_dict() if source.feature_keys else None,
+        "feature_key_options": options.feature_keys.as_parameters(),
+        "pseudonymized": options.pseudonymize_key is not None,
+    }
+    with ws.stage(record) as con:
+        cleared = _clear_dependent_stages(ws)
+        say("forming sessions")
         with _reading(source.files.label):
-            counts = count_source_rows(ws.con, options.sessions)
-        if counts.rows_read == 0:
-            raise InputError(f"{source.files.label}: no events in the input (0 rows)")
-        if counts.usable_rows - counts.noise_dropped <= 0:
-            reasons = ", ".join(f"{n} {r}" for r, n in counts.rejected.items()) or "all were noise"
-            raise InputError(f"{source.files.label}: none of {counts.rows_read} rows is usable ({reasons})")
-        reading = {
-            "label": source.files.label,
-            "format": source.files.format,
-            "file_count": source.file_count,
-            "mapping": source.mapping,
-            "timestamp": source.timestamp.describe(),
-            "naive_timestamps": counts.naive_timestamps,
+            build_sessions(
+                con,
+                options=options.sessions,
+                use_session_column=source.has_session_column,
+                include_automated=options.include_automated,
+                pseudonymize_key=options.pseudonymize_key,
+            )
+        say("counting paths")
+        build_paths(con, max_k=options.max_k, include_automated=options.include_automated)
+        say("fitting the usage model")
+        _fit_model(con)
+        run(con, "upsert_meta", key="profile_reading", value=json.dumps(reading, sort_keys=True))
+        con.unregister("mapped_source")
+        summary = summarize_profile(ws, top=top, min_users=min_users)
+        summary["cleared"] = cleared
+        record.row_counts = {
             "rows_read": counts.rows_read,
-            "usable_rows": counts.usable_rows,
-            "rejected": counts.rejected,
-            "noise_dropped": counts.noise_dropped,
-            "first_ts": _iso(counts.first_ts),
-            "last_ts": _iso(counts.last_ts),
-            "formed_by": (
-                f"the input's session column {source.mapping['session_id']!r}"
-                if source.has_session_column
-                else f"idle gaps longer than {options.sessions.idle_minutes:g} minutes"
-            ),
-            "segment_columns": source.segment_columns,
-            "pseudonymized": options.pseudonymize_key is not None,
+            "sessions": summary["sessions"]["count"],
+            "users": summary["sessions"]["users"],
+            "features": summary["features"]["count"],
         }
-        with ws.stage(record) as con:
-            cleared = _clear_dependent_stages(ws)
-            say("forming sessions")
-            with _reading(source.files.label):
-                build_sessions(
-                    con,
-                    options=options.sessions,
-                    use_session_column=source.has_session_column,
-                    include_automated=options.include_automated,
-                    pseudonymize_key=options.pseudonymize_key,
-                )
-            say("counting paths")
-            build_paths(con, max_k=options.max_k, include_automated=options.include_automated)
-            say("fitting the usage model")
-            _fit_model(con)
-            run(con, "upsert_meta", key="profile_reading", value=json.dumps(reading, sort_keys=True))
-            con.unregister("mapped_source")
-            summary = summarize_profile(ws, top=top, min_users=min_users)
-            summary["cleared"] = cleared
-            record.row_counts = {
-                "rows_read": counts.rows_read,
-                "sessions": summary["sessions"]["count"],
-                "users": summary["sessions"]["users"],
-                "features": summary["features"]["count"],
-            }
-        return summary
+    return summary
 
 
 # Stages whose tables hold event ids of the profile they were built on, with their meta keys.

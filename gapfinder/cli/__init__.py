@@ -18,30 +18,15 @@ import traceback
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any, TypeVar
+from typing import Any
 
 import click
 
 from gapfinder import __version__
+from gapfinder.cli.params import F, FiniteFloat
+from gapfinder.cli.profile_options import profile_options, profile_options_from
 from gapfinder.errors import GapfinderError, describe_database_error
 from gapfinder.quoting import printable
-
-F = TypeVar("F", bound=Callable[..., Any])
-
-
-class FiniteFloat(click.FloatRange):
-    """A float option that refuses nan and ±inf as well as values out of its range."""
-
-    name = "number"
-
-    def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> Any:
-        import math
-
-        number = super().convert(value, param, ctx)
-        if not math.isfinite(number):
-            self.fail(f"{value!r} is not a finite number", param, ctx)
-        return number
-
 
 FORMATS = ("table", "json", "csv")
 
@@ -269,161 +254,27 @@ def cli(ctx: click.Context, debug: bool) -> None:
     help="About how many field events to generate.",
 )
 @click.option("--seed", default=7, show_default=True, type=int, help="Random seed; the same seed gives the same files.")
-def demo(out: str, events: int, seed: int) -> None:
+@click.option(
+    "--as",
+    "as_format",
+    type=click.Choice(["parquet", "otlp"]),
+    default="parquet",
+    show_default=True,
+    help="Field telemetry as monthly Parquet files, or as OpenTelemetry logs (OTLP/JSON, one request per line).",
+)
+def demo(out: str, events: int, seed: int, as_format: str) -> None:
     """Generate the invented tool-library demo: field telemetry, test traces and a manifest."""
     from gapfinder.demo import generate_demo
 
-    result = generate_demo(out, events=events, seed=seed)
+    result = generate_demo(out, events=events, seed=seed, as_format=as_format)
+    kind = "Parquet files" if as_format == "parquet" else "OpenTelemetry log files"
     click.echo(
         f"wrote {result.event_count:,} field events ({result.session_count:,} sessions, "
-        f"{result.user_count:,} members) in {len(result.field_files)} monthly Parquet files under "
+        f"{result.user_count:,} members) in {len(result.field_files)} monthly {kind} under "
         f"{result.out / 'field'}",
         err=True,
     )
     click.echo(f"test traces: {result.suite_file}; what was planted: {result.manifest_file}", err=True)
-
-
-def _parse_mapping(config: str | None, items: tuple[str, ...]) -> dict[str, str]:
-    from gapfinder.sources import load_config_columns, parse_map_options
-
-    mapping: dict[str, str] = {}
-    if config:
-        mapping.update(load_config_columns(config))
-    elif os.path.exists("gapfinder.toml"):
-        mapping.update(load_config_columns("gapfinder.toml"))
-    mapping.update(parse_map_options(items))
-    return mapping
-
-
-def profile_options(func: F) -> F:
-    """The options of how telemetry is read and sessionized, shared by `profile` and `run`."""
-    decorators: list[Callable[[F], F]] = [
-        click.option(
-            "--map",
-            "maps",
-            multiple=True,
-            metavar="CANONICAL=SOURCE",
-            help="Map a canonical column (user_id, session_id, ts, event, app_version, platform, "
-            "outcome) to a source column; repeatable.",
-        ),
-        click.option(
-            "--config",
-            type=click.Path(dir_okay=False),
-            help="A gapfinder.toml whose [columns] table maps columns (default: ./gapfinder.toml if present).",
-        ),
-        click.option(
-            "--ts-unit",
-            type=click.Choice(["s", "ms", "us", "ns"]),
-            help="Unit of epoch-number timestamps (default: detected from their size).",
-        ),
-        click.option("--ts-format", help="strptime format of text timestamps (default: ISO-8601)."),
-        click.option(
-            "--idle",
-            default=30.0,
-            show_default=True,
-            type=FiniteFloat(min=0, min_open=True),
-            help="Minutes of inactivity that end a session (ignored with a session column).",
-        ),
-        click.option(
-            "--drop",
-            "drop_events",
-            multiple=True,
-            metavar="EVENT",
-            help="An event to remove before sessionizing (heartbeats, pings); repeatable.",
-        ),
-        click.option("--collapse-repeats", is_flag=True, help="Drop an event that repeats the one just before it."),
-        click.option(
-            "--max-events",
-            default=500,
-            show_default=True,
-            type=click.IntRange(min=0),
-            help="Cut sessions longer than this many events (0: no cap); the cut is reported.",
-        ),
-        click.option(
-            "--error-outcome",
-            "error_outcomes",
-            multiple=True,
-            metavar="VALUE",
-            help="An outcome value that means failure (default: error, fail, failed, exception, ...).",
-        ),
-        click.option(
-            "--automated/--no-automated",
-            "flag_automated",
-            default=True,
-            show_default=True,
-            help="Flag accounts far outside the rest as automated and keep them apart.",
-        ),
-        click.option("--include-automated", is_flag=True, help="Count flagged automated sessions in the paths too."),
-        click.option(
-            "--max-k",
-            default=5,
-            show_default=True,
-            type=click.IntRange(min=2),
-            help="Longest contiguous path (k-path) to count.",
-        ),
-        click.option(
-            "--key-env",
-            metavar="VAR",
-            help="Pseudonymize user ids with the HMAC-SHA256 key in this environment variable.",
-        ),
-        click.option(
-            "--key-file", type=click.Path(dir_okay=False), help="Pseudonymize user ids with the key in this file."
-        ),
-        click.option("--threads", type=click.IntRange(min=1), help="DuckDB threads (default: all cores)."),
-        click.option(
-            "--memory-limit", metavar="SIZE", help="DuckDB memory limit, e.g. 4GB; larger work spills to disk."
-        ),
-    ]
-    for decorate in reversed(decorators):
-        func = decorate(func)
-    return func
-
-
-def profile_options_from(values: dict[str, Any]) -> Any:
-    """ProfileOptions from the parsed values of `profile_options` (the keys are removed from ``values``)."""
-    from gapfinder.privacy import read_key
-    from gapfinder.sessions import DEFAULT_ERROR_OUTCOMES, SessionOptions
-    from gapfinder.usage_profile import ProfileOptions
-
-    v = {k: values.pop(k) for k in PROFILE_OPTION_NAMES}
-    return ProfileOptions(
-        mapping=_parse_mapping(v["config"], v["maps"]),
-        ts_unit=v["ts_unit"],
-        ts_format=v["ts_format"],
-        sessions=SessionOptions(
-            idle_minutes=v["idle"],
-            drop_events=v["drop_events"],
-            collapse_repeats=v["collapse_repeats"],
-            max_events=v["max_events"],
-            error_outcomes=v["error_outcomes"] or DEFAULT_ERROR_OUTCOMES,
-            flag_automated=v["flag_automated"],
-        ),
-        max_k=v["max_k"],
-        include_automated=v["include_automated"],
-        pseudonymize_key=read_key(env_var=v["key_env"], key_file=v["key_file"]),
-        threads=v["threads"],
-        memory_limit=v["memory_limit"],
-    )
-
-
-PROFILE_OPTION_NAMES = (
-    "maps",
-    "config",
-    "ts_unit",
-    "ts_format",
-    "idle",
-    "drop_events",
-    "collapse_repeats",
-    "max_events",
-    "error_outcomes",
-    "flag_automated",
-    "include_automated",
-    "max_k",
-    "key_env",
-    "key_file",
-    "threads",
-    "memory_limit",
-)
 
 
 @cli.command()

@@ -13,7 +13,9 @@ from typing import Any
 from rich.console import Console
 from rich.table import Table
 
+from gapfinder.quoting import terminal_text
 from gapfinder.report.markdown import p_value_text
+from gapfinder.sources.feature_keys import describe_feature_keys
 
 __all__ = ["format_path", "render_audit", "render_paths", "render_plan", "render_profile", "summary_rows"]
 
@@ -47,6 +49,11 @@ def render_profile(summary: dict[str, Any], console: Console) -> None:
         f"{reading.get('format', '')} file(s): {reading.get('label', '')}"
     )
     console.print(f"timestamps: {reading.get('timestamp', '')}")
+    for note in reading.get("notes") or []:
+        console.print(terminal_text(note))
+    keys = reading.get("feature_keys")
+    if keys:
+        console.print(terminal_text(describe_feature_keys(keys)))
     if reading.get("naive_timestamps"):
         console.print(f"  {reading['naive_timestamps']:,} timestamps had no time zone and were taken as UTC")
     if rejected:

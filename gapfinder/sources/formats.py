@@ -1,7 +1,9 @@
 """Which reader a telemetry path needs, and the DuckDB relation that reads it.
 
-Readers are chosen by file extension. A folder is searched recursively for files of one kind;
-hive-style folders (``month=2026-01/part.parquet``) add their keys as columns.
+Readers are chosen by file extension, and JSON files by content too: a file that opens as an
+OpenTelemetry export request (``{"resourceLogs": ...`` or ``{"resourceSpans": ...``) is OTLP. A
+folder is searched recursively for files of one kind; hive-style folders
+(``month=2026-01/part.parquet``) add their keys as columns.
 """
 
 from __future__ import annotations
@@ -16,7 +18,7 @@ import duckdb
 
 from gapfinder.errors import InputError, describe_database_error
 
-__all__ = ["FORMATS", "SourceFiles", "open_relation", "resolve_files"]
+__all__ = ["CONVERTED_FORMATS", "FORMATS", "SourceFiles", "open_relation", "resolve_files"]
 
 # extension -> format name; compressed CSV/NDJSON are read by DuckDB directly.
 FORMATS: dict[str, str] = {
@@ -31,7 +33,13 @@ FORMATS: dict[str, str] = {
     ".json": "ndjson",
     ".ndjson.gz": "ndjson",
     ".jsonl.gz": "ndjson",
+    ".json.gz": "ndjson",
+    ".xes": "xes",
+    ".xes.gz": "xes",
 }
+# Formats read once into a Parquet file in a scratch folder before the passes over the events.
+CONVERTED_FORMATS = ("otlp-logs", "otlp-traces", "xes")
+_FILE_KINDS = ".parquet, .csv, .tsv, .ndjson, .jsonl, .json (OTLP too) or .xes"
 
 
 @dataclass(frozen=True)
@@ -51,6 +59,16 @@ def _format_of(path: str) -> str | None:
     return None
 
 
+def _content_format(path: str) -> str | None:
+    """The format of a file: by extension, and for JSON by whether it opens as an OTLP request."""
+    kind = _format_of(path)
+    if kind == "ndjson":
+        from gapfinder.sources.otlp import sniff_otlp_kind
+
+        return sniff_otlp_kind(path) or kind
+    return kind
+
+
 def resolve_files(inputs: Sequence[str | os.PathLike[str]]) -> SourceFiles:
     """Expand files, folders and globs into one sorted list of readable files of one format."""
     if not inputs:
@@ -66,7 +84,7 @@ def resolve_files(inputs: Sequence[str | os.PathLike[str]]) -> SourceFiles:
         elif Path(item).is_dir():
             inside = sorted(str(p) for p in Path(item).rglob("*") if p.is_file() and _format_of(str(p)))
             if not inside:
-                raise InputError(f"{item}: the folder holds no .parquet, .csv, .tsv, .ndjson or .jsonl file")
+                raise InputError(f"{item}: the folder holds no {_FILE_KINDS} file")
             found.extend(inside)
         elif Path(item).is_file():
             found.append(item)
@@ -74,16 +92,16 @@ def resolve_files(inputs: Sequence[str | os.PathLike[str]]) -> SourceFiles:
             raise InputError(f"{item}: no such file or folder")
     kinds: dict[str, str] = {}
     for f in found:
-        kind = _format_of(f)
-        if kind is None:
-            raise InputError(f"{f}: unknown file type; use .parquet, .csv, .tsv, .ndjson or .jsonl (optionally .gz)")
+        if _format_of(f) is None:
+            raise InputError(f"{f}: unknown file type; use {_FILE_KINDS} (optionally .gz)")
+        if not os.access(f, os.R_OK):
+            raise InputError(f"{f}: the file cannot be read (permission denied)")
+        kind = _content_format(f)
+        assert kind is not None
         kinds.setdefault(kind, f)
     if len(kinds) > 1:
         listed = ", ".join(f"{k} ({v})" for k, v in kinds.items())
         raise InputError(f"telemetry mixes formats ({listed}): give files of one format per run")
-    for f in found:
-        if not os.access(f, os.R_OK):
-            raise InputError(f"{f}: the file cannot be read (permission denied)")
     label = ", ".join(os.fspath(i) for i in inputs)
     return SourceFiles(format=next(iter(kinds)), files=tuple(found), label=label)
 

@@ -5,11 +5,18 @@ from __future__ import annotations
 import tomllib
 from collections.abc import Iterable
 from pathlib import Path
+from typing import Any
 
 from gapfinder.errors import ConfigError
 from gapfinder.safe_io import read_text
 
-__all__ = ["CANONICAL_COLUMNS", "REQUIRED_COLUMNS", "load_config_columns", "parse_map_options"]
+__all__ = [
+    "CANONICAL_COLUMNS",
+    "REQUIRED_COLUMNS",
+    "load_config_columns",
+    "load_config_features",
+    "parse_map_options",
+]
 
 CANONICAL_COLUMNS: tuple[str, ...] = (
     "user_id",
@@ -49,15 +56,50 @@ def parse_map_options(items: Iterable[str], *, allowed: tuple[str, ...] = CANONI
     return mapping
 
 
-def load_config_columns(path: str | Path) -> dict[str, str]:
-    """The ``[columns]`` table of a gapfinder.toml file (canonical name = source column)."""
-    config = Path(path)
+def _load_config(config: Path) -> dict[str, Any]:
     try:
-        data = tomllib.loads(read_text(config, what="configuration file", option="--config"))
+        return tomllib.loads(read_text(config, what="configuration file", option="--config"))
     except FileNotFoundError:
         raise ConfigError(f"{config}: no such configuration file") from None
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"{config}: not valid TOML ({exc})") from None
+
+
+def load_config_features(path: str | Path) -> dict[str, Any]:
+    """The ``[features]`` table of a gapfinder.toml file.
+
+    ``template`` (text, like ``--feature``), ``rewrite`` (a list of ``PATTERN=>REPLACEMENT`` texts,
+    run in order) and ``template_ids`` (true/false, false like ``--keep-ids``).
+
+    Examples
+    --------
+    A file holding::
+
+        [features]
+        template = "{event}:{screen}"
+        rewrite = ['/tools/[0-9]+/=>/tools/{id}/']
+    """
+    config = Path(path)
+    table = _load_config(config).get("features", {})
+    if not isinstance(table, dict):
+        raise ConfigError(f"{config}: [features] must be a table (template, rewrite, template_ids)")
+    unknown = sorted(set(table) - {"template", "rewrite", "template_ids"})
+    if unknown:
+        raise ConfigError(f"{config} [features]: unknown key {unknown[0]!r}; use template, rewrite or template_ids")
+    if "template" in table and not isinstance(table["template"], str):
+        raise ConfigError(f'{config} [features]: template must be text such as "{{event}}:{{screen}}"')
+    rewrite = table.get("rewrite", [])
+    if not isinstance(rewrite, list) or not all(isinstance(r, str) for r in rewrite):
+        raise ConfigError(f"{config} [features]: rewrite must be a list of 'PATTERN=>REPLACEMENT' texts")
+    if "template_ids" in table and not isinstance(table["template_ids"], bool):
+        raise ConfigError(f"{config} [features]: template_ids must be true or false")
+    return dict(table)
+
+
+def load_config_columns(path: str | Path) -> dict[str, str]:
+    """The ``[columns]`` table of a gapfinder.toml file (canonical name = source column)."""
+    config = Path(path)
+    data = _load_config(config)
     columns = data.get("columns", {})
     if not isinstance(columns, dict):
         raise ConfigError(f'{config}: [columns] must be a table of canonical = "source" pairs')

@@ -3,15 +3,27 @@
 from __future__ import annotations
 
 import os
+import tempfile
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
 
 import duckdb
 from duckdb import CaseExpression, ColumnExpression, ConstantExpression, FunctionExpression
 from duckdb import sqltypes as T
 
 from gapfinder.errors import ConfigError, InputError, describe_database_error
-from gapfinder.sources.formats import SourceFiles, open_relation, resolve_files
+from gapfinder.sources.feature_keys import (
+    FeatureKeys,
+    KeyReport,
+    apply_rules,
+    map_names_query,
+    parse_template,
+    template_expression,
+)
+from gapfinder.sources.fields import field_expression
+from gapfinder.sources.formats import CONVERTED_FORMATS, SourceFiles, open_relation, resolve_files
 from gapfinder.sources.mapping import CANONICAL_COLUMNS, REQUIRED_COLUMNS
 
 __all__ = ["EPOCH_UNITS", "OpenedSource", "TimestampReading", "open_telemetry"]
@@ -53,8 +65,11 @@ class TimestampReading:
     unit_detected: bool = False
     text_format: str | None = None
     unit_counts: tuple[tuple[str, int], ...] = ()
+    described_as: str | None = None
 
     def describe(self) -> str:
+        if self.described_as:
+            return self.described_as
         if self.kind == "epoch":
             if self.unit_detected:
                 counted = ", ".join(f"{n:,} in {u}" for u, n in self.unit_counts if n) or "no values"
@@ -71,7 +86,12 @@ class TimestampReading:
 
 @dataclass
 class OpenedSource:
-    """A telemetry input mapped onto canonical columns (exposed as the view ``mapped_source``)."""
+    """A telemetry input mapped onto canonical columns (exposed as the view ``mapped_source``).
+
+    ``notes`` say what a converted format (OTLP, XES) held and which conventions filled the columns;
+    ``feature_keys`` what the feature template and rewrite rules did. ``close()`` removes the scratch
+    folder of a converted format once the events have been read.
+    """
 
     files: SourceFiles
     mapping: dict[str, str]
@@ -79,24 +99,32 @@ class OpenedSource:
     timestamp: TimestampReading
     has_session_column: bool
     segment_columns: list[str] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+    feature_keys: KeyReport | None = None
+    scratch: tempfile.TemporaryDirectory[str] | None = None
 
     @property
     def file_count(self) -> int:
         return len(self.files.files)
 
+    def close(self) -> None:
+        if self.scratch is not None:
+            self.scratch.cleanup()
+            self.scratch = None
+
 
 def _timestamp_expression(
     con: duckdb.DuckDBPyConnection,
     relation: duckdb.DuckDBPyRelation,
-    column: str,
+    col: duckdb.Expression,
     type_name: str,
     *,
     ts_unit: str | None,
     ts_format: str | None,
     label: str,
+    column: str,
 ) -> tuple[duckdb.Expression, duckdb.Expression, TimestampReading]:
-    """(converted TIMESTAMPTZ expression, is-naive expression, reading) for the ts column."""
-    col = ColumnExpression(column)
+    """(converted TIMESTAMPTZ expression, is-naive expression, reading) for the ts field ``col``."""
     base = type_name.split("(")[0].upper()
     if ts_unit is not None and ts_unit not in EPOCH_UNITS:
         raise ConfigError(f"--ts-unit {ts_unit!r}: use one of {', '.join(EPOCH_UNITS)}")
@@ -195,6 +223,34 @@ def _check_ts_format(con: duckdb.DuckDBPyConnection, ts_format: str) -> None:
         ) from None
 
 
+def _convert(con: duckdb.DuckDBPyConnection, files: SourceFiles) -> tuple[SourceFiles, Any, list[str], Any]:
+    """Read an OTLP or XES input once into Parquet in a private scratch folder."""
+    scratch = tempfile.TemporaryDirectory(prefix="gapfinder-source-")
+    out = Path(scratch.name) / "events.parquet"
+    try:
+        if files.format == "xes":
+            from gapfinder.sources.xes import convert_xes
+
+            facts: Any = convert_xes(list(files.files), out)
+        else:
+            from gapfinder.sources.otlp import convert_otlp
+
+            facts = convert_otlp(con, files.files, files.format, out, label=files.label)
+    except BaseException:
+        scratch.cleanup()
+        raise
+    converted = SourceFiles(format="parquet", files=(str(out),), label=files.label)
+    return converted, scratch, [facts.describe()], facts
+
+
+def _default_fields(files: SourceFiles, facts: Any, types: dict[str, str]) -> dict[str, str]:
+    """Canonical columns a converted source fills by convention (the rest are left unmapped)."""
+    chosen = {c: c for c in CANONICAL_COLUMNS if c in types}
+    if files.format == "otlp-logs" and not facts.sessions_from_attribute:
+        chosen.pop("session_id", None)  # no session.id anywhere: sessions from idle gaps
+    return chosen
+
+
 def open_telemetry(
     con: duckdb.DuckDBPyConnection,
     inputs: Sequence[str | os.PathLike[str]],
@@ -203,6 +259,8 @@ def open_telemetry(
     ts_unit: str | None = None,
     ts_format: str | None = None,
     extra_columns: Sequence[str] = (),
+    feature_keys: FeatureKeys | None = None,
+    max_names: int = 65_534,
 ) -> OpenedSource:
     """Create the temporary view ``mapped_source`` over the telemetry with canonical columns.
 
@@ -210,51 +268,143 @@ def open_telemetry(
     ``outcome`` as text (NULL when not mapped), ``ts`` as TIMESTAMPTZ in UTC (NULL when the raw
     value is missing or cannot be read), ``has_raw_ts`` and ``is_naive_ts``; and each of
     ``extra_columns`` (such as ``test_id`` for test-run telemetry) as text, NULL when not mapped.
+    A mapping's source is any field ``fields.field_expression`` accepts (a column, ``attr:NAME``,
+    ``resource:NAME``, ``case:NAME``, ``properties.screen``). ``feature_keys`` form the event names
+    (template, rewrite rules, id templates; see ``feature_keys``).
     """
     files = resolve_files(inputs)
-    relation = open_relation(con, files)
+    scratch = None
+    notes: list[str] = []
+    facts: Any = None
+    read_files = files
+    if files.format in CONVERTED_FORMATS:
+        read_files, scratch, notes, facts = _convert(con, files)
+    try:
+        return _open_mapped(
+            con,
+            files,
+            read_files,
+            dict(mapping or {}),
+            facts=facts,
+            notes=notes,
+            scratch=scratch,
+            ts_unit=ts_unit,
+            ts_format=ts_format,
+            extra_columns=extra_columns,
+            feature_keys=feature_keys or FeatureKeys(),
+            max_names=max_names,
+        )
+    except BaseException:
+        if scratch is not None:
+            scratch.cleanup()
+        raise
+
+
+def _open_mapped(
+    con: duckdb.DuckDBPyConnection,
+    files: SourceFiles,
+    read_files: SourceFiles,
+    chosen: dict[str, str],
+    *,
+    facts: Any,
+    notes: list[str],
+    scratch: Any,
+    ts_unit: str | None,
+    ts_format: str | None,
+    extra_columns: Sequence[str],
+    feature_keys: FeatureKeys,
+    max_names: int,
+) -> OpenedSource:
+    relation = open_relation(con, read_files)
     try:
         source_columns = list(relation.columns)
         source_types = [str(t) for t in relation.types]
     except duckdb.Error as exc:
         raise InputError(f"{files.label}: cannot be read ({describe_database_error(exc)})") from None
     types = dict(zip(source_columns, source_types, strict=True))
-    chosen = dict(mapping or {})
-    for canonical in (*CANONICAL_COLUMNS, *extra_columns):
-        if canonical not in chosen and canonical in types:
-            chosen[canonical] = canonical
-    for canonical, source_name in chosen.items():
-        if source_name not in types:
-            raise InputError(
-                f"{files.label}: no column {source_name!r} for {canonical}; the columns are {', '.join(source_columns)}"
+    converted = files.format in CONVERTED_FORMATS
+    if converted:
+        defaults = _default_fields(files, facts, types)
+        if files.format == "otlp-traces" and facts.entry_spans:
+            relation = relation.filter(ColumnExpression("span_kind").isin(ConstantExpression(2), ConstantExpression(5)))
+            notes.append(
+                f"spans: the {facts.entry_spans:,} entry spans (SERVER, CONSUMER) are the events; the calls they make "
+                "are not"
             )
+        for canonical, column in defaults.items():
+            chosen.setdefault(canonical, column)
+        if "user_id" not in chosen or chosen.get("user_id") == "user_id":
+            used = facts.user_id_from if files.format != "xes" else {}
+            fallback = [n for n in used if n not in ("user.id", "enduser.pseudo.id", "enduser.id")]
+            if fallback:
+                notes.append(
+                    "users: no user.id, enduser.pseudo.id or enduser.id attribute on "
+                    f"{sum(used[n] for n in fallback):,} records; they count {', '.join(fallback)} as the user "
+                    "(map another with --map user_id=attr:NAME)"
+                )
+    else:
+        for canonical in (*CANONICAL_COLUMNS, *extra_columns):
+            if canonical not in chosen and canonical in types:
+                chosen[canonical] = canonical
+    expressions: dict[str, duckdb.Expression] = {}
+    for canonical, spec in chosen.items():
+        expressions[canonical] = field_expression(
+            relation, types, spec, label=files.label, option=f"--map {canonical}={spec}"
+        )
     for canonical in REQUIRED_COLUMNS:
         if canonical not in chosen:
             raise InputError(
                 f"{files.label}: required column {canonical!r} is missing; the columns are "
                 f"{', '.join(source_columns)}. Map one with --map {canonical}=<column>"
             )
+    ts_spec = chosen["ts"]
+    ts_type = str(relation.select(expressions["ts"].alias("v")).types[0])
     if ts_format is not None:
         _check_ts_format(con, ts_format)
-        ts_source = chosen["ts"]
-        if types[ts_source].split("(")[0].upper() not in _TEXT_TYPES:
-            if files.format not in ("csv", "tsv"):
+        if ts_type.split("(")[0].upper() not in _TEXT_TYPES:
+            if read_files.format not in ("csv", "tsv") or ts_spec not in types:
                 raise ConfigError(
-                    f"--ts-format {ts_format!r}: column {ts_source!r} of {files.label} already holds "
-                    f"{types[ts_source]} values, not text; drop --ts-format"
+                    f"--ts-format {ts_format!r}: column {ts_spec!r} of {files.label} already holds "
+                    f"{ts_type} values, not text; drop --ts-format"
                 )
             # The CSV sniffer typed the column itself (perhaps day-first): read its text instead.
-            relation = open_relation(con, files, text_columns=(ts_source,))
-            types[ts_source] = "VARCHAR"
+            relation = open_relation(con, read_files, text_columns=(ts_spec,))
+            ts_type = "VARCHAR"
     ts_expr, naive_expr, reading = _timestamp_expression(
         con,
         relation,
-        chosen["ts"],
-        types[chosen["ts"]],
+        expressions["ts"],
+        ts_type,
         ts_unit=ts_unit,
         ts_format=ts_format,
         label=files.label,
+        column=ts_spec,
     )
+    raw_ts_present = expressions["ts"].isnotnull()
+    if converted and ts_spec == "ts" and files.format != "xes":
+        raw_ts_present = ColumnExpression("has_time")
+        reading = TimestampReading(
+            ts_type,
+            "epoch",
+            unit="ns",
+            described_as="OTLP timeUnixNano (observedTimeUnixNano where it is 0), nanoseconds since the epoch "
+            "kept to the microsecond",
+        )
+    event_expr = expressions["event"]
+    if feature_keys.template:
+        pieces = parse_template(feature_keys.template)
+        values: dict[str, duckdb.Expression] = {}
+        for _literal, name in pieces:
+            if not name or name in values:
+                continue
+            if name in expressions:
+                values[name] = expressions[name].cast(T.VARCHAR)
+            else:
+                spec = name if (name in types or "attributes" not in types or ":" in name) else f"attr:{name}"
+                values[name] = field_expression(
+                    relation, types, spec, label=files.label, option=f"--feature {feature_keys.template!r}"
+                ).cast(T.VARCHAR)
+        event_expr = template_expression(pieces, values)
     projections: list[duckdb.Expression] = []
     within = (ts_expr >= ConstantExpression(PLAUSIBLE_FROM).cast(T.TIMESTAMP_TZ)) & (
         ts_expr < ConstantExpression(PLAUSIBLE_TO).cast(T.TIMESTAMP_TZ)
@@ -263,19 +413,33 @@ def open_telemetry(
         if canonical == "ts":
             projections.append(CaseExpression(within, ts_expr).otherwise(ConstantExpression(None)).alias("ts"))
             projections.append((ts_expr.isnotnull() & ~within).alias("is_ts_outside_window"))
-            projections.append(ColumnExpression(chosen["ts"]).isnotnull().alias("has_raw_ts"))
+            projections.append(raw_ts_present.alias("has_raw_ts"))
             projections.append(naive_expr.alias("is_naive_ts"))
+        elif canonical == "event":
+            projections.append(event_expr.cast(T.VARCHAR).alias("event"))
         elif canonical in chosen:
-            projections.append(ColumnExpression(chosen[canonical]).cast(T.VARCHAR).alias(canonical))
+            projections.append(expressions[canonical].cast(T.VARCHAR).alias(canonical))
         else:
             projections.append(ConstantExpression(None).cast(T.VARCHAR).alias(canonical))
     for extra in extra_columns:
         if extra in chosen:
-            projections.append(ColumnExpression(chosen[extra]).cast(T.VARCHAR).alias(extra))
+            projections.append(expressions[extra].cast(T.VARCHAR).alias(extra))
         else:
             projections.append(ConstantExpression(None).cast(T.VARCHAR).alias(extra))
-    # A registered relation is a temporary view: nothing pointing at the files is persisted.
-    con.register("mapped_source", relation.select(*projections))
+    mapped = relation.select(*projections)
+    report = None
+    if feature_keys.template or feature_keys.rules():
+        # A registered relation is a temporary view: nothing pointing at the files is persisted.
+        con.register("mapped_source_raw", mapped)
+        try:
+            renamed, report = apply_rules(con, feature_keys, max_names=max_names, label=files.label)
+        finally:
+            con.unregister("mapped_source_raw")
+        if renamed:
+            named = mapped.query("mapped_source_raw", map_names_query())
+            assert named is not None
+            mapped = named
+    con.register("mapped_source", mapped)
     return OpenedSource(
         files=files,
         mapping=chosen,
@@ -283,4 +447,7 @@ def open_telemetry(
         timestamp=reading,
         has_session_column="session_id" in chosen,
         segment_columns=[c for c in ("app_version", "platform") if c in chosen],
+        notes=notes,
+        feature_keys=report,
+        scratch=scratch,
     )

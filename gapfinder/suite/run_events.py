@@ -21,6 +21,7 @@ import os
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
+from typing import Any
 
 import duckdb
 import pyarrow as pa
@@ -68,16 +69,28 @@ def attribute_run_events(
     *,
     ts_unit: str | None = None,
     ts_format: str | None = None,
+    feature_keys: Any = None,
 ) -> RunEvents:
-    """Each test's events in time order, by the events' test-id column or by the tests' windows."""
+    """Each test's events in time order, by the events' test-id column or by the tests' windows.
+
+    ``feature_keys`` name the events the way the field profile named its own (same template,
+    rewrite rules and id templates), so a test's steps meet the field's features."""
     from gapfinder.sources.telemetry import open_telemetry
 
     con = duckdb.connect(":memory:")
+    closing: list[Any] = []
     try:
         con.execute("SET TimeZone = 'UTC'")
         opened = open_telemetry(
-            con, inputs, mapping or {}, ts_unit=ts_unit, ts_format=ts_format, extra_columns=("test_id",)
+            con,
+            inputs,
+            mapping or {},
+            ts_unit=ts_unit,
+            ts_format=ts_format,
+            extra_columns=("test_id",),
+            feature_keys=feature_keys,
         )
+        closing.append(opened)
         label = opened.files.label
         result = RunEvents(label=label, mapping=opened.mapping)
         if "test_id" in opened.mapping:
@@ -111,4 +124,6 @@ def attribute_run_events(
     except duckdb.Error as exc:
         raise InputError(f"--events: the test-run telemetry cannot be read ({describe_database_error(exc)})") from None
     finally:
+        for opened_source in closing:
+            opened_source.close()
         con.close()

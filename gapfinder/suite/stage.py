@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import os
 from collections.abc import Sequence
@@ -58,6 +59,7 @@ class SuiteOptions:
     events_mapping: dict[str, str] = field(default_factory=dict)
     ts_unit: str | None = None
     ts_format: str | None = None
+    feature_keys: Any = None
 
 
 def _read_one(file: SuiteFile, options: SuiteOptions, phrases: StepPhrases | None) -> ReaderReport:
@@ -149,7 +151,12 @@ def _attribute_events(report: ReaderReport, options: SuiteOptions) -> dict[str, 
         if t.started is not None and t.finished is not None
     ]
     found = attribute_run_events(
-        options.events, windows, options.events_mapping, ts_unit=options.ts_unit, ts_format=options.ts_format
+        options.events,
+        windows,
+        options.events_mapping,
+        ts_unit=options.ts_unit,
+        ts_format=options.ts_format,
+        feature_keys=options.feature_keys,
     )
     by_id = {t.test_id: t for t in report.traces}
     for test_id, steps in found.steps.items():
@@ -290,6 +297,13 @@ def load_suite(
     ws.require("features", "kpaths", hint="run `gapfinder profile TELEMETRY -w ...` first")
     tag_filter = _tag_filter(options.tags)
     aliases = load_aliases(options.aliases) if options.aliases else {}
+    if options.events and options.feature_keys is None:
+        # Test-run events are named the way the field profile named its events.
+        from gapfinder.sources.feature_keys import FeatureKeys
+
+        meta = ws.con.execute("SELECT value FROM meta WHERE key = 'profile_reading'").fetchall()
+        stored = json.loads(meta[0][0]).get("feature_key_options") if meta else None
+        options = dataclasses.replace(options, feature_keys=FeatureKeys.from_parameters(stored))
     report = read_suite(inputs, options)
     ids = {r["event"]: int(r["event_id"]) for r in fetch_dicts(ws.con, "list_event_ids")}
     field_events = [e for e, i in ids.items() if i > 1]
