@@ -39,6 +39,11 @@ _DATABASE_REASONS = (
     (re.compile(r"unterminated quote", re.I), "a quoted value is not closed"),
     (re.compile(r"Invalid unicode|not utf-8 encoded|invalid UTF-8", re.I), "the text is not valid UTF-8"),
     (re.compile(r"Malformed JSON", re.I), "malformed JSON"),
+    (
+        re.compile(r"in record/value (\d+): Expected ([A-Z]+), but got ([A-Z]+)"),
+        "JSON value {0}: a field holds {2} where the format needs {1}",
+    ),
+    (re.compile(r"gzip|zlib|deflate|compressed", re.I), "the compressed file is cut short or damaged"),
     (re.compile(r"Could not convert|Conversion Error", re.I), "a value cannot be converted to the column's type"),
     (re.compile(r"Could not set lock|Conflicting lock", re.I), "another gapfinder process is using this workspace"),
     (re.compile(r"No space left on device", re.I), "the disk is full"),

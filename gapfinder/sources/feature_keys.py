@@ -47,7 +47,7 @@ DEFAULT_ID_RULES: tuple[tuple[str, str, str], ...] = (
     ("numbers of 4+ digits → {n}", r"(^|[^0-9A-Za-z{])[0-9]{4,}([^0-9A-Za-z}]|$)", r"\1{n}\2"),
     ("hex runs of 8+ → {hex}", r"(^|[^0-9A-Za-z{])[0-9A-Fa-f]{8,}([^0-9A-Za-z}]|$)", r"\1{hex}\2"),
 )
-_PLACEHOLDER = re.compile(r"\{([^{}]+)\}")
+_PLACEHOLDER = re.compile(r"\{([^{}]*)\}")
 _DELIMITERS = ("/", "_", "-", ".", ":", " ")
 
 

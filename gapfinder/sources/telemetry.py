@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import os
+import shutil
 import tempfile
+import weakref
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, ClassVar
 
 import duckdb
 from duckdb import CaseExpression, ColumnExpression, ConstantExpression, FunctionExpression
@@ -22,7 +24,7 @@ from gapfinder.sources.feature_keys import (
     parse_template,
     template_expression,
 )
-from gapfinder.sources.fields import field_expression
+from gapfinder.sources.fields import ATTRIBUTE_PREFIXES, field_expression
 from gapfinder.sources.formats import CONVERTED_FORMATS, SourceFiles, open_relation, resolve_files
 from gapfinder.sources.mapping import CANONICAL_COLUMNS, REQUIRED_COLUMNS
 
@@ -101,7 +103,7 @@ class OpenedSource:
     segment_columns: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     feature_keys: KeyReport | None = None
-    scratch: tempfile.TemporaryDirectory[str] | None = None
+    scratch: Scratch | None = None
 
     @property
     def file_count(self) -> int:
@@ -223,9 +225,27 @@ def _check_ts_format(con: duckdb.DuckDBPyConnection, ts_format: str) -> None:
         ) from None
 
 
+class Scratch:
+    """A private folder (mode 0700) for a converted source, removed by ``cleanup()`` or at exit.
+
+    It is kept alive until then even if the caller drops the ``OpenedSource``: the view
+    ``mapped_source`` still reads from it."""
+
+    _live: ClassVar[set[Scratch]] = set()
+
+    def __init__(self) -> None:
+        self.name = tempfile.mkdtemp(prefix="gapfinder-source-")
+        self._finalizer = weakref.finalize(self, shutil.rmtree, self.name, ignore_errors=True)
+        Scratch._live.add(self)
+
+    def cleanup(self) -> None:
+        Scratch._live.discard(self)
+        self._finalizer()
+
+
 def _convert(con: duckdb.DuckDBPyConnection, files: SourceFiles) -> tuple[SourceFiles, Any, list[str], Any]:
     """Read an OTLP or XES input once into Parquet in a private scratch folder."""
-    scratch = tempfile.TemporaryDirectory(prefix="gapfinder-source-")
+    scratch = Scratch()
     out = Path(scratch.name) / "events.parquet"
     try:
         if files.format == "xes":
@@ -400,7 +420,8 @@ def _open_mapped(
             if name in expressions:
                 values[name] = expressions[name].cast(T.VARCHAR)
             else:
-                spec = name if (name in types or "attributes" not in types or ":" in name) else f"attr:{name}"
+                explicit = name in types or name.partition(":")[0] in ATTRIBUTE_PREFIXES
+                spec = name if explicit or "attributes" not in types else f"attr:{name}"
                 values[name] = field_expression(
                     relation, types, spec, label=files.label, option=f"--feature {feature_keys.template!r}"
                 ).cast(T.VARCHAR)

@@ -402,6 +402,122 @@ CASES: dict[str, Case] = {
         (lambda ws: (_add_vanished(f, ws), ws)[1])(w),
     ],
     # --- listing, gate, audit, export, report ---
+    # --- OpenTelemetry logs, XES, feature keys (profile) ---
+    "otlp-logs-truncated": lambda f, w: [
+        "profile",
+        _csv(f / "l.json", '{"resourceLogs": [{"scopeLogs": [{"logRecords": [{"timeUnixNano": "1'),
+        "-w",
+        w,
+    ],
+    "otlp-logs-wrong-types": lambda f, w: [
+        "profile",
+        _csv(f / "l.jsonl", '{"resourceLogs": [{"scopeLogs": "' + SECRET + '"}]}\n'),
+        "-w",
+        w,
+    ],
+    "otlp-logs-not-utf8": lambda f, w: [
+        "profile",
+        _bytes(f / "l.jsonl", b'{"resourceLogs": [{"scopeLogs": [{"logRecords": [{"eventName": "\xff\xfe"}]}]}]}\n'),
+        "-w",
+        w,
+    ],
+    "otlp-logs-gzip-truncated": lambda f, w: [
+        "profile",
+        _bytes(f / "l.json.gz", __import__("gzip").compress(b'{"resourceLogs": []}\n' * 500)[:60]),
+        "-w",
+        w,
+    ],
+    "otlp-logs-no-usable-record": lambda f, w: [
+        "profile",
+        _csv(f / "l.json", '{"resourceLogs": [{"scopeLogs": [{"logRecords": [{"body": {"stringValue": "x"}}]}]}]}'),
+        "-w",
+        w,
+    ],
+    "xes-entity-bomb": lambda f, w: [
+        "profile",
+        _csv(
+            f / "bomb.xes",
+            '<?xml version="1.0"?>\n<!DOCTYPE log [<!ENTITY a "' + SECRET + '"><!ENTITY b "&a;&a;&a;&a;&a;&a;">'
+            '<!ENTITY c "&b;&b;&b;&b;&b;&b;">]>\n<log><trace><event><string key="concept:name" value="&c;"/>'
+            "</event></trace></log>",
+        ),
+        "-w",
+        w,
+    ],
+    "xes-external-entity": lambda f, w: [
+        "profile",
+        _csv(
+            f / "ext.xes",
+            '<?xml version="1.0"?>\n<!DOCTYPE log [<!ENTITY x SYSTEM "file:///etc/passwd">]>\n'
+            '<log><trace><event><string key="concept:name" value="&x;"/></event></trace></log>',
+        ),
+        "-w",
+        w,
+    ],
+    "xes-truncated": lambda f, w: [
+        "profile",
+        _csv(f / "t.xes", '<log><trace><string key="concept:name" value="' + SECRET + '"/><event><string key='),
+        "-w",
+        w,
+    ],
+    "xes-not-utf8": lambda f, w: [
+        "profile",
+        _bytes(
+            f / "n.xes",
+            b'<?xml version="1.0" encoding="UTF-8"?><log><trace><string key="a" value="\xff"/></trace></log>',
+        ),
+        "-w",
+        w,
+    ],
+    "xes-gzip-truncated": lambda f, w: [
+        "profile",
+        _bytes(f / "g.xes.gz", __import__("gzip").compress(b"<log>" + b"<trace></trace>" * 400 + b"</log>")[:50]),
+        "-w",
+        w,
+    ],
+    "xes-not-a-log": lambda f, w: ["profile", _csv(f / "x.xes", "<html><body/></html>"), "-w", w],
+    "feature-template-unbalanced": lambda f, w: ["profile", "x.csv", "-w", w, "--feature", "{event}:{screen"],
+    "feature-template-unknown-field": lambda f, w: [
+        "profile",
+        _csv(f / "e.csv", f"user_id,ts,event\n{SECRET},2026-01-01T00:00:00Z,a\n"),
+        "-w",
+        w,
+        "--feature",
+        "{event}:{nowhere}",
+    ],
+    "rewrite-invalid-regex": lambda f, w: [
+        "profile",
+        _csv(f / "e.csv", f"user_id,ts,event\n{SECRET},2026-01-01T00:00:00Z,a\n"),
+        "-w",
+        w,
+        "--rewrite",
+        "(unclosed=>x",
+    ],
+    "rewrite-without-arrow": lambda f, w: ["profile", "x.csv", "-w", w, "--rewrite", "just a pattern"],
+    "map-attr-on-parquet": lambda f, w: [
+        "profile",
+        _csv(f / "e.csv", f"user_id,ts,event\n{SECRET},2026-01-01T00:00:00Z,a\n"),
+        "-w",
+        w,
+        "--map",
+        "user_id=attr:user.id",
+    ],
+    "map-nested-into-a-number": lambda f, w: [
+        "profile",
+        _csv(f / "e.csv", f"user_id,ts,event,n\n{SECRET},2026-01-01T00:00:00Z,a,5\n"),
+        "-w",
+        w,
+        "--map",
+        "event=n.screen",
+    ],
+    "config-features-bad": lambda f, w: [
+        "profile",
+        "x.csv",
+        "-w",
+        w,
+        "--config",
+        _csv(f / "c.toml", "[features]\nrewrite = 'not a list'\n"),
+    ],
     "paths-missing-workspace": lambda f, w: ["paths", "-w", str(f / "none.duckdb")],
     "paths-kind-bogus": lambda f, w: ["paths", "-w", w, "--kind", "everything"],
     "paths-min-support-nan": lambda f, w: ["paths", "-w", w, "--min-support", "nan"],
