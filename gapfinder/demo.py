@@ -252,11 +252,13 @@ def generate_demo(
     out: the folder to write (``field/``, ``tests/suite_traces.csv``, ``manifest.json``).
     events: about how many field events to generate (the automated account adds about 1 %).
     seed: the random seed; the same seed gives the same files.
-    as_format: ``parquet`` (``field/month=YYYY-MM/events.parquet``) or ``otlp`` (OpenTelemetry logs,
-        ``field/logs-YYYY-MM.jsonl.gz``, one export request per line).
+    as_format: ``parquet`` (``field/month=YYYY-MM/events.parquet``), ``otlp`` (OpenTelemetry logs,
+        ``field/logs-YYYY-MM.jsonl.gz``, one export request per line) or ``export`` (an analytics
+        export, ``field/events-YYYY-MM.parquet``: generic ``screen_view`` events with a JSON
+        ``properties`` column, tool ids inside URL-like names).
     """
-    if as_format not in ("parquet", "otlp"):
-        raise ConfigError(f"--as {as_format!r}: use parquet or otlp")
+    if as_format not in ("parquet", "otlp", "export"):
+        raise ConfigError(f"--as {as_format!r}: use parquet, otlp or export")
     if events < 1_000:
         raise ConfigError(f"--events {events}: the demo needs at least 1000 events")
     rng = np.random.default_rng(seed)
@@ -351,8 +353,8 @@ def generate_demo(
     columns["outcome"] = np.concatenate([columns["outcome"], np.full(bot_n, "ok")])
 
     field_files = _write_field(field_dir, columns)
-    if as_format == "otlp":
-        field_files = _parquet_to_otlp_logs(field_files)
+    if as_format != "parquet":
+        field_files = _rewrite_field(field_files, as_format)
     suite_file = _write_suite(target / "tests")
     staging_files = _write_staging_run(target / "staging_run")
     manifest = {
@@ -439,8 +441,8 @@ def _write_field(field_dir: Path, columns: dict[str, Any]) -> list[Path]:
     return written
 
 
-def _parquet_to_otlp_logs(parquet_files: list[Path]) -> list[Path]:
-    """Rewrite each month's Parquet file as OTLP/JSON logs beside its folder, then remove it."""
+def _rewrite_field(parquet_files: list[Path], as_format: str) -> list[Path]:
+    """Rewrite each month's Parquet file as OTLP logs or an analytics export, then remove it."""
     from gapfinder.sql import run
     from gapfinder.workspace import connect_memory
 
@@ -449,9 +451,13 @@ def _parquet_to_otlp_logs(parquet_files: list[Path]) -> list[Path]:
     try:
         for parquet in parquet_files:
             month = parquet.parent.name.partition("=")[2]
-            target = parquet.parent.parent / f"logs-{month}.jsonl.gz"
+            if as_format == "otlp":
+                target = parquet.parent.parent / f"logs-{month}.jsonl.gz"
+            else:
+                target = parquet.parent.parent / f"events-{month}.parquet"
             partial = target.with_name(target.name + ".partial")
-            run(con, "write_demo_otlp_logs", files=[str(parquet)], path=str(partial))
+            query = "write_demo_otlp_logs" if as_format == "otlp" else "write_demo_analytics_export"
+            run(con, query, files=[str(parquet)], path=str(partial))
             os.replace(partial, target)
             parquet.unlink()
             parquet.parent.rmdir()

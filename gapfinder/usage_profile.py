@@ -188,11 +188,7 @@ def _profile_source(
         "noise_dropped": counts.noise_dropped,
         "first_ts": _iso(counts.first_ts),
         "last_ts": _iso(counts.last_ts),
-        "formed_by": (
-            f"the input's session column {source.mapping['session_id']!r}"
-            if source.has_session_column
-            else f"idle gaps longer than {options.sessions.idle_minutes:g} minutes"
-        ),
+        "formed_by": _formed_by(source, options.sessions.idle_minutes),
         "segment_columns": source.segment_columns,
         "notes": source.notes,
         "feature_keys": source.feature_keys.as_dict() if source.feature_keys else None,
@@ -225,6 +221,19 @@ def _profile_source(
             "features": summary["features"]["count"],
         }
     return summary
+
+
+def _formed_by(source: OpenedSource, idle_minutes: float) -> str:
+    if not source.has_session_column:
+        return f"idle gaps longer than {idle_minutes:g} minutes"
+    column = source.mapping["session_id"]
+    if column == "session_id" and source.files.format == "xes":
+        return "the log's traces (cases)"
+    if column == "session_id" and source.files.format == "otlp-logs":
+        return "the session.id attribute"
+    if column == "session_id" and source.files.format == "otlp-traces":
+        return "the session.id attribute, else the trace"
+    return f"the input's session column {column!r}"
 
 
 # Stages whose tables hold event ids of the profile they were built on, with their meta keys.

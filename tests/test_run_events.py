@@ -154,3 +154,19 @@ def test_a_real_pytest_run_with_the_plugin_and_app_telemetry(tmp_path: Path) -> 
     assert traces["test_shed.py::test_browse"].steps == ["login", "search_catalogue", "view_tool"]
     assert traces["test_shed.py::test_pay"].steps == ["login", "pay_deposit_card"]
     assert traces["test_shed.py::test_pay"].outcome == "failed"
+
+
+def test_staging_run_as_opentelemetry_logs_reads_like_the_parquet(tmp_path: Path) -> None:
+    """Whatever profile reads, suite reads as a recorded test run: the staging events as OTLP logs."""
+    import duckdb
+
+    from gapfinder.sql import run
+
+    otlp = tmp_path / "events.jsonl.gz"
+    con = duckdb.connect()
+    con.execute("SET TimeZone = 'UTC'")
+    run(con, "write_demo_otlp_logs", files=[str(STAGING / "events.parquet")], path=str(otlp))
+    from_otlp = read_suite([STAGING / "pytest_run.ndjson"], SuiteOptions(events=(str(otlp),)))
+    from_parquet = read_suite([STAGING / "pytest_run.ndjson"], SuiteOptions(events=(str(STAGING / "events.parquet"),)))
+    assert _by_name(from_otlp.traces) == _by_name(from_parquet.traces)
+    assert from_otlp.events_reading["attributed"] == 28

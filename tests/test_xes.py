@@ -12,7 +12,7 @@ from gapfinder.sources import open_telemetry
 from gapfinder.usage_profile import profile_telemetry
 from gapfinder.workspace import connect_memory
 
-PERMITS = Path(__file__).resolve().parent / "data" / "xes" / "permits.xes"
+PERMITS = Path(__file__).resolve().parent.parent / "sample_telemetry" / "xes" / "permits.xes"
 
 
 def _events(con) -> list[tuple]:
@@ -72,7 +72,7 @@ def test_gzip_and_profile(tmp_path: Path) -> None:
     packed.write_bytes(gzip.compress(PERMITS.read_bytes()))
     summary = profile_telemetry([packed], tmp_path / "ws.duckdb", min_users=1)
     assert summary["sessions"]["count"] == 2
-    assert summary["sessions"]["formed_by"] == "the input's session column 'session_id'"
+    assert summary["sessions"]["formed_by"] == "the log's traces (cases)"
     assert summary["reading"]["format"] == "xes"
 
 
@@ -88,3 +88,31 @@ def test_broken_documents_are_refused_with_a_position(tmp_path: Path, text: str,
     path.write_text(text)
     with pytest.raises(InputError, match=expected):
         open_telemetry(connect_memory(), [path])
+
+
+@pytest.mark.parametrize(("read_bytes", "batch_events"), [(97, 1), (333, 2), (4096, 3)])
+def test_batches_cut_anywhere_give_the_same_events(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, read_bytes: int, batch_events: int
+) -> None:
+    """Chunks of the file end inside elements and batches end inside traces: nothing is lost or moved."""
+    from gapfinder.sources import xes
+
+    text = PERMITS.read_text()
+    head, rest = text.split("<trace>", 1)
+    body = "<trace>" + rest.rsplit("</log>", 1)[0]
+    big = tmp_path / "many.xes"
+    big.write_text(head + body * 40 + "</log>\n")
+    whole = xes.convert_xes([str(big)], tmp_path / "whole.parquet")
+    monkeypatch.setattr(xes, "_READ_BYTES", read_bytes)
+    monkeypatch.setattr(xes, "_BATCH_EVENTS", batch_events)
+    cut = xes.convert_xes([str(big)], tmp_path / "cut.parquet")
+    assert (whole.traces, whole.events) == (cut.traces, cut.events) == (80, 200)
+    con = connect_memory()
+    query = (
+        "SELECT * EXCLUDE (attributes, case_attributes), attributes::VARCHAR, case_attributes::VARCHAR "
+        "FROM read_parquet($p) ORDER BY case_id, position"
+    )
+    assert (
+        con.execute(query, {"p": str(tmp_path / "whole.parquet")}).fetchall()
+        == con.execute(query, {"p": str(tmp_path / "cut.parquet")}).fetchall()
+    )

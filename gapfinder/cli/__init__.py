@@ -257,17 +257,20 @@ def cli(ctx: click.Context, debug: bool) -> None:
 @click.option(
     "--as",
     "as_format",
-    type=click.Choice(["parquet", "otlp"]),
+    type=click.Choice(["parquet", "otlp", "export"]),
     default="parquet",
     show_default=True,
-    help="Field telemetry as monthly Parquet files, or as OpenTelemetry logs (OTLP/JSON, one request per line).",
+    help="Field telemetry as monthly Parquet files, as OpenTelemetry logs (OTLP/JSON, one request per line), "
+    "or as an analytics export (generic names with JSON properties, ids inside names).",
 )
 def demo(out: str, events: int, seed: int, as_format: str) -> None:
     """Generate the invented tool-library demo: field telemetry, test traces and a manifest."""
     from gapfinder.demo import generate_demo
 
     result = generate_demo(out, events=events, seed=seed, as_format=as_format)
-    kind = "Parquet files" if as_format == "parquet" else "OpenTelemetry log files"
+    kind = {"parquet": "Parquet files", "otlp": "OpenTelemetry log files", "export": "analytics export files"}[
+        as_format
+    ]
     click.echo(
         f"wrote {result.event_count:,} field events ({result.session_count:,} sessions, "
         f"{result.user_count:,} members) in {len(result.field_files)} monthly {kind} under "

@@ -23,6 +23,7 @@ entity bombs cannot expand and nothing is fetched.
 
 from __future__ import annotations
 
+import gc
 import gzip
 import re
 import zlib
@@ -31,6 +32,7 @@ from pathlib import Path
 from typing import Any, BinaryIO, cast
 from xml.parsers import expat
 
+import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
@@ -87,22 +89,6 @@ def _open_bytes(path: str) -> BinaryIO:
     return cast(BinaryIO, open(path, "rb"))
 
 
-class _Columns:
-    """Column lists of the events read so far, turned into one Arrow record batch at a time."""
-
-    def __init__(self) -> None:
-        self.reset()
-
-    def reset(self) -> None:
-        self.data: dict[str, list[Any]] = {name: [] for name in XES_SCHEMA.names}
-
-    def __len__(self) -> int:
-        return len(self.data["case_id"])
-
-    def batch(self) -> pa.RecordBatch:
-        return pa.RecordBatch.from_pydict(self.data, schema=XES_SCHEMA)
-
-
 def _parse_keys(keys: str) -> tuple[str, ...]:
     return tuple(a or b for a, b in _CLASSIFIER_KEY.findall(keys))
 
@@ -118,155 +104,176 @@ class _Refused(Exception):
     """Raised from inside the parser's callbacks for a construct gapfinder does not accept."""
 
 
-class _LogReader:
-    """Expat callbacks that turn one XES document into column lists, one trace at a time.
+class _Header:
+    """A log's extensions, global defaults and first classifier; complete when the first trace starts."""
 
-    Every element start with a ``key`` attribute is an attribute element: its key and value go to the
-    event, trace, global or log being read; anything nested inside it (meta-attributes, list items)
-    is skipped by counting depth. The log's header (extensions, globals, classifiers) precedes its
-    traces, so it is complete when the first trace starts.
-    """
-
-    def __init__(self, columns: _Columns, facts: XesFacts) -> None:
-        self.columns = columns
-        self.facts = facts
-        self.nest = 0
-        self.current: dict[str, str] | None = None
-        self.trace: dict[str, str] | None = None
-        self.trace_events: list[dict[str, str]] = []
+    def __init__(self) -> None:
+        self.prefix = {role: role for role in ("concept", "time", "lifecycle", "org")}
         self.log_attributes: dict[str, str] = {}
         self.event_defaults: dict[str, str] = {}
         self.trace_defaults: dict[str, str] = {}
-        self.prefix = {role: role for role in ("concept", "time", "lifecycle", "org")}
         self.classifier: tuple[str, tuple[str, ...]] | None = None
         self.saw_log = False
-        self.header_done = False
+        self.done = False
 
-    def start(self, name: str, attrs: dict[str, str]) -> None:
-        key = attrs.get("key")
-        if key is not None and "keys" not in attrs:
-            if not self.nest and self.current is not None:
-                self.current[key] = attrs.get("value") or ""
-            self.nest += 1
+    def finish(self, facts: XesFacts) -> None:
+        if self.done:
             return
-        if self.nest:
-            self.nest += 1
-            return
-        if ":" in name:
-            name = name.rpartition(":")[2]
-        if name == "event":
-            if self.trace is None:
-                self.facts.events_outside_traces += 1
-                self.nest = 1
-                return
-            self.current = {}
-        elif name == "trace":
-            if not self.header_done:
-                self._finish_header()
-            self.trace = self.current = {}
-            self.trace_events = []
-        elif name == "global":
-            self.current = self.trace_defaults if attrs.get("scope") == "trace" else self.event_defaults
-        elif name == "extension":
-            role = _EXTENSIONS.get((attrs.get("uri") or "").rsplit("/", 1)[-1].lower())
-            if role and attrs.get("prefix"):
-                self.prefix[role] = attrs["prefix"]
-        elif name == "classifier":
-            keys = _parse_keys(attrs.get("keys") or "")
-            if keys and self.classifier is None:
-                self.classifier = (attrs.get("name") or "classifier", keys)
-        elif name == "log":
-            self.saw_log = True
-            self.current = self.log_attributes
-
-    def end(self, name: str) -> None:
-        if self.nest:
-            self.nest -= 1
-            return
-        if ":" in name:
-            name = name.rpartition(":")[2]
-        if name == "event":
-            if self.current is not None and self.trace is not None:
-                self.trace_events.append(self.current)
-            self.current = self.trace
-        elif name == "trace":
-            self._flush_trace()
-            self.trace = None
-            self.current = self.log_attributes
-        elif name == "global":
-            self.current = self.log_attributes
-
-    def _finish_header(self) -> None:
-        self.header_done = True
+        self.done = True
         self.name_key = f"{self.prefix['concept']}:name"
         self.time_key = f"{self.prefix['time']}:timestamp"
         self.lifecycle_key = f"{self.prefix['lifecycle']}:transition"
         self.resource_key = f"{self.prefix['org']}:resource"
         if self.classifier is None:
             self.classifier = (self.name_key, (self.name_key,))
-        self.facts.classifier, self.facts.classifier_keys = self.classifier
-        self.facts.global_event_defaults = len(self.event_defaults)
-        self.facts.global_trace_defaults = len(self.trace_defaults)
+        facts.classifier, facts.classifier_keys = self.classifier
+        facts.global_event_defaults = len(self.event_defaults)
+        facts.global_trace_defaults = len(self.trace_defaults)
 
-    def _flush_trace(self) -> None:
-        facts = self.facts
+
+Traces = list[tuple[dict[str, str], list[dict[str, str]]]]
+
+
+def _string_map(rows: list[dict[str, str]]) -> pa.MapArray:
+    """A map<string, string> array from dictionaries, built from flat keys, values and offsets."""
+    offsets = np.zeros(len(rows) + 1, dtype=np.int32)
+    np.cumsum([len(r) for r in rows], out=offsets[1:])
+    keys = pa.array([k for r in rows for k in r], pa.string())
+    values = pa.array([v for r in rows for v in r.values()], pa.string())
+    return pa.MapArray.from_arrays(pa.array(offsets), keys, values)
+
+
+def _columns(header: _Header, traces: Traces, facts: XesFacts) -> pa.RecordBatch:
+    """One record batch from whole traces (each: its attributes, its events' attributes in order)."""
+    assert header.classifier is not None
+    keys = header.classifier[1]
+    event_defaults, trace_defaults = header.event_defaults, header.trace_defaults
+    case_ids: list[str] = []
+    case_rows: list[dict[str, str]] = []
+    positions: list[int] = []
+    rows: list[dict[str, str]] = []
+    for trace_values, events in traces:
         facts.traces += 1
-        trace_values = {**self.trace_defaults, **(self.trace or {})}
-        case_id = trace_values.get(self.name_key) or f"#{facts.traces}"
-        trace_pairs = list(trace_values.items())
-        assert self.classifier is not None
-        keys = self.classifier[1]
-        defaults = self.event_defaults
-        data = self.columns.data
-        name_key, time_key, lifecycle_key, resource_key = (
-            self.name_key,
-            self.time_key,
-            self.lifecycle_key,
-            self.resource_key,
-        )
-        position = 0
-        for event in self.trace_events:
-            values = {**defaults, **event} if defaults else event
-            position += 1
-            if len(keys) == 1:
-                name = values.get(name_key if keys[0] == name_key else keys[0]) or None
-            else:
-                parts = [values[k] for k in keys if values.get(k)]
-                name = ":".join(parts) if parts else None
-            lifecycle = values.get(lifecycle_key)
-            data["case_id"].append(case_id)
-            data["position"].append(position)
-            data["event"].append(name)
-            data["ts"].append(values.get(time_key))
-            data["lifecycle"].append(lifecycle)
-            data["resource_name"].append(values.get(resource_key))
-            data["outcome"].append("error" if lifecycle and lifecycle.lower() in _ABORTING else None)
-            data["user_id"].append(case_id)
-            data["session_id"].append(case_id)
-            data["attributes"].append(list(values.items()))
-            data["case_attributes"].append(trace_pairs)
-        facts.events += position
-        self.trace_events = []
+        values = {**trace_defaults, **trace_values} if trace_defaults else trace_values
+        case_id = values.get(header.name_key) or f"#{facts.traces}"
+        count = len(events)
+        case_ids.extend([case_id] * count)
+        case_rows.extend([values] * count)
+        positions.extend(range(1, count + 1))
+        rows.extend([{**event_defaults, **e} for e in events] if event_defaults else events)
+    facts.events += len(rows)
+    if len(keys) == 1:
+        only = keys[0]
+        names: list[str | None] = [r.get(only) or None for r in rows]
+    else:
+        names = [":".join(v for k in keys if (v := r.get(k))) or None for r in rows]
+    lifecycles = [r.get(header.lifecycle_key) for r in rows]
+    data = {
+        "case_id": case_ids,
+        "position": positions,
+        "event": names,
+        "ts": [r.get(header.time_key) for r in rows],
+        "lifecycle": lifecycles,
+        "resource_name": [r.get(header.resource_key) for r in rows],
+        "outcome": ["error" if t and t.lower() in _ABORTING else None for t in lifecycles],
+        "user_id": case_ids,
+        "session_id": case_ids,
+    }
+    arrays = [pa.array(values, XES_SCHEMA.field(name).type) for name, values in data.items()]
+    arrays += [_string_map(rows), _string_map(case_rows)]
+    return pa.RecordBatch.from_arrays(arrays, schema=XES_SCHEMA)
 
 
-def _read_log(path: str, columns: _Columns, facts: XesFacts, flush: Any) -> None:
-    """Parse one XES file with expat, handing full batches to ``flush``."""
-    reader = _LogReader(columns, facts)
+def _read_log(path: str, facts: XesFacts, write: Any) -> None:
+    """Parse one XES file with expat, handing record batches of whole traces to ``write``.
+
+    Every element start with a ``key`` attribute is an attribute element: its key and value go to the
+    event, trace, global or log being read; anything nested inside it (meta-attributes, list items)
+    is skipped by counting depth. The callbacks are closures over local state: they run once per
+    element of the file, so the common case is one dictionary look-up and one store.
+    """
+    header = _Header()
+    pending: Traces = []
+    pending_events = 0
+    nest = 0
+    current: dict[str, str] = header.log_attributes
+    trace: dict[str, str] | None = None
+    events: list[dict[str, str]] = []
+
+    def start(name: str, attrs: dict[str, str]) -> None:
+        nonlocal nest, current, trace, events
+        key = attrs.get("key")
+        if key is not None:
+            if not nest:
+                current[key] = attrs.get("value", "")
+            nest += 1
+            return
+        if nest:
+            nest += 1
+            return
+        local = name.rpartition(":")[2]
+        if local == "event":
+            if trace is None:
+                facts.events_outside_traces += 1
+                nest = 1
+                return
+            current = {}
+        elif local == "trace":
+            header.finish(facts)
+            trace = current = {}
+            events = []
+        elif local == "global":
+            current = header.trace_defaults if attrs.get("scope") == "trace" else header.event_defaults
+        elif local == "extension":
+            role = _EXTENSIONS.get((attrs.get("uri") or "").rsplit("/", 1)[-1].lower())
+            if role and attrs.get("prefix"):
+                header.prefix[role] = attrs["prefix"]
+        elif local == "classifier":
+            keys = _parse_keys(attrs.get("keys") or "")
+            if keys and header.classifier is None:
+                header.classifier = (attrs.get("name") or "classifier", keys)
+        elif local == "log":
+            header.saw_log = True
+
+    def end(name: str) -> None:
+        nonlocal nest, current, trace, pending_events
+        if nest:
+            nest -= 1
+            return
+        if name == "event" or name.endswith(":event"):
+            if trace is not None:
+                events.append(current)
+                current = trace
+        elif name == "trace" or name.endswith(":trace"):
+            if trace is not None:
+                pending.append((trace, events))
+                pending_events += len(events)
+            trace = None
+            current = header.log_attributes
+        elif name == "global" or name.endswith(":global"):
+            current = header.log_attributes
+
     parser = expat.ParserCreate()
     parser.SetParamEntityParsing(expat.XML_PARAM_ENTITY_PARSING_NEVER)
     parser.StartDoctypeDeclHandler = _refuse("a DTD (<!DOCTYPE ...>), which could declare entities")
     parser.EntityDeclHandler = _refuse("an entity declaration")
     parser.UnparsedEntityDeclHandler = _refuse("an entity declaration")
     parser.ExternalEntityRefHandler = _refuse("an external entity")
-    parser.StartElementHandler = reader.start
-    parser.EndElementHandler = reader.end
+    parser.StartElementHandler = start
+    parser.EndElementHandler = end
+    # The loop allocates a dictionary per event and holds a batch of them: the cyclic collector would
+    # scan them over and over without finding a cycle, so it is paused while the file is parsed.
+    collecting = gc.isenabled()
+    gc.disable()
     try:
         with _open_bytes(path) as handle:
             while True:
                 chunk = handle.read(_READ_BYTES)
                 parser.Parse(chunk, not chunk)
-                if len(columns) >= _BATCH_EVENTS:
-                    flush()
+                if pending_events >= _BATCH_EVENTS or (not chunk and pending):
+                    write(_columns(header, pending, facts))
+                    pending.clear()
+                    pending_events = 0
                 if not chunk:
                     break
     except expat.ExpatError as exc:
@@ -281,24 +288,18 @@ def _read_log(path: str, columns: _Columns, facts: XesFacts, flush: Any) -> None
         ) from None
     except (OSError, EOFError, zlib.error) as exc:
         raise InputError(f"{path}: cannot be read ({type(exc).__name__}: the file is cut short or damaged)") from None
-    if not reader.saw_log:
+    finally:
+        if collecting:
+            gc.enable()
+    if not header.saw_log:
         raise InputError(f"{path}: no <log> element; an XES file starts with <log xes.version=...>")
-    if not reader.header_done:
-        reader._finish_header()
+    header.finish(facts)
 
 
 def convert_xes(files: list[str], out_path: Path) -> XesFacts:
     """Stream the XES ``files`` into the Parquet file ``out_path`` (schema ``XES_SCHEMA``)."""
     facts = XesFacts(files=list(files))
-    columns = _Columns()
     with pq.ParquetWriter(str(out_path), XES_SCHEMA) as writer:
-
-        def flush() -> None:
-            if len(columns):
-                writer.write_batch(columns.batch())
-                columns.reset()
-
         for path in files:
-            _read_log(path, columns, facts, flush)
-        flush()
+            _read_log(path, facts, writer.write_batch)
     return facts

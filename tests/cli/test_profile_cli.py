@@ -143,3 +143,62 @@ def test_demo_command_writes_files(tmp_path: Path) -> None:
     assert (tmp_path / "d" / "manifest.json").exists()
     again = invoke("demo", "--out", str(tmp_path / "d"), "--events", "5000")
     assert_one_line_error(again, "already holds")
+
+
+def test_profile_reads_the_committed_otlp_logs_like_the_parquet(tmp_path: Path) -> None:
+    otel = invoke("profile", str(SAMPLE / "otlp"), "-w", str(tmp_path / "o.duckdb"), "--format", "json")
+    assert otel.exit_code == 0, otel.output
+    summary = json.loads(otel.stdout)
+    assert summary["reading"]["format"] == "otlp-logs"
+    assert summary["reading"]["notes"] == ["OTLP log records: 10,688; users from user.id (10,688)"]
+    january = tmp_path / "january.parquet"
+    import duckdb
+
+    duckdb.connect().execute(
+        "COPY (SELECT * FROM read_parquet($f, hive_partitioning = true) WHERE month = '2026-01') TO $p",
+        {"f": [str(p) for p in (SAMPLE / "field").rglob("*.parquet")], "p": str(january)},
+    )
+    plain = json.loads(invoke("profile", str(january), "-w", str(tmp_path / "p.duckdb"), "--format", "json").stdout)
+    for key in ("count", "users", "events", "with_errors"):
+        assert summary["sessions"][key] == plain["sessions"][key]
+    assert summary["transitions"]["top"] == plain["transitions"]["top"]
+
+
+def test_profile_export_with_feature_template_and_config(tmp_path: Path) -> None:
+    args = ["profile", str(SAMPLE / "export"), "--format", "json", "--map", "event=event_name"]
+    by_option = invoke(*args, "-w", str(tmp_path / "a.duckdb"), "--feature", "{event}:{properties.screen}")
+    assert by_option.exit_code == 0, by_option.output
+    summary = json.loads(by_option.stdout)
+    features = {r["event"] for r in summary["features"]["top"]}
+    assert "screen_view:search_catalogue" in features and any(f.startswith("/tools/{n}/") for f in features)
+    keys = summary["reading"]["feature_keys"]
+    assert keys["raw_names"] > keys["names"] == summary["features"]["count"]
+    config = tmp_path / "gapfinder.toml"
+    config.write_text('[features]\ntemplate = "{event}:{properties.screen}"\n')
+    by_config = invoke(*args, "-w", str(tmp_path / "b.duckdb"), "--config", str(config))
+    assert json.loads(by_config.stdout)["features"] == summary["features"]
+    kept = invoke(*args, "-w", str(tmp_path / "c.duckdb"), "--keep-ids", "--feature", "{event}")
+    assert json.loads(kept.stdout)["features"]["count"] > 1000  # the tool numbers stay in the names
+
+
+def test_profile_table_states_what_the_rules_did(tmp_path: Path) -> None:
+    result = invoke(
+        "profile",
+        str(SAMPLE / "export"),
+        "-w",
+        str(tmp_path / "t.duckdb"),
+        "--map",
+        "event=event_name",
+        "--rewrite",
+        "^/tools/[0-9]+/=>/tools/{id}/",
+    )
+    assert result.exit_code == 0, result.output
+    assert "--rewrite ^/tools/[0-9]+/=>/tools/{id}/:" in result.stdout and "fewer" in result.stdout
+
+
+@pytest.mark.parametrize(("kind", "pattern"), [("otlp", "logs-*.jsonl.gz"), ("export", "events-*.parquet")])
+def test_demo_writes_other_shapes(tmp_path: Path, kind: str, pattern: str) -> None:
+    result = invoke("demo", "--out", str(tmp_path / "d"), "--events", "2000", "--as", kind)
+    assert result.exit_code == 0, result.output
+    written = sorted((tmp_path / "d" / "field").glob(pattern))
+    assert len(written) == 6 and not list((tmp_path / "d" / "field").glob("month=*"))

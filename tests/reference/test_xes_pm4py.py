@@ -59,7 +59,7 @@ def test_pm4py_written_log_reads_back_identically(tmp_path: Path) -> None:
 
 def test_pm4py_read_of_our_fixture_agrees() -> None:
     """pm4py's own reader sees the same cases and events in our invented fixture as gapfinder does."""
-    fixture = Path(__file__).resolve().parent.parent / "data" / "xes" / "permits.xes"
+    fixture = Path(__file__).resolve().parent.parent.parent / "sample_telemetry" / "xes" / "permits.xes"
     theirs = pm4py.read_xes(str(fixture))
     con = connect_memory()
     from gapfinder.sources.feature_keys import FeatureKeys
