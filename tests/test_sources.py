@@ -108,3 +108,15 @@ def test_map_options_and_toml(tmp_path: Path) -> None:
     config.write_text('[columns]\nwho = "member"\n')
     with pytest.raises(ConfigError, match="who"):
         load_config_columns(config)
+
+
+def test_json_array_document_reads_like_ndjson(tmp_path: Path) -> None:
+    rows = [
+        {"user_id": "u", "ts": "2026-01-01T10:00:00Z", "event": "a"},
+        {"user_id": "u", "ts": 1767261660, "event": "b"},
+    ]
+    array = tmp_path / "export.json"
+    array.write_text(json.dumps(rows[:1]))
+    con = connect_memory()
+    open_telemetry(con, [array])
+    assert first_ts(con) == EXPECTED

@@ -134,7 +134,8 @@ def open_relation(
         for f in files:
             if os.path.getsize(f) == 0:
                 raise InputError(f"{f}: the file is empty; it needs one JSON object per line")
-        return con.read_json(files, format="newline_delimited", union_by_name=True)
+        # "auto": one object per line, or a document holding an array of objects (a .json export).
+        return con.read_json(files, format="auto", union_by_name=True)
     except duckdb.Error as exc:
         raise InputError(
             f"{source.label}: cannot be read as {source.format} ({describe_database_error(exc)})"
