@@ -166,6 +166,19 @@ def _run_into(
     return PipelineResult(folder, workspace, sorted(files), summary)
 
 
+def _reading_line(reading: dict[str, Any]) -> str:
+    """How the telemetry was read: format, conventions used, and what the feature keys did."""
+    from gapfinder.sources.feature_keys import describe_feature_keys
+
+    parts = [
+        f"Telemetry: {reading.get('rows_read', 0):,} rows of {reading.get('format', '')} ({reading.get('label', '')})"
+    ]
+    parts += list(reading.get("notes") or [])
+    if reading.get("feature_keys"):
+        parts.append(describe_feature_keys(reading["feature_keys"]))
+    return markdown_text("; ".join(parts) + ".")
+
+
 def _suite_line(suite: dict[str, Any]) -> str:
     left_out = ", ".join(f"{n:,} {reason}" for reason, n in sorted((suite.get("left_out") or {}).items()))
     return (
@@ -212,6 +225,8 @@ def render_summary_markdown(summary: dict[str, Any]) -> str:
         f"{reading.get('last_ts', '')[:10]}), against {suite['test_count']} tests with {suite['step_count']} steps. "
         f"Automated traffic left out: {profile['automated']['users']} account(s), {profile['automated']['sessions']:,} "
         "sessions.",
+        "",
+        _reading_line(reading),
         "",
         _suite_line(suite),
         "",
