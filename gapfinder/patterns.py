@@ -22,7 +22,7 @@ from gapfinder.mining import DEFAULT_MAX_PATTERNS, PatternSet, SequenceDatabase,
 from gapfinder.paths import Listing, feature_names
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts, registered, run
-from gapfinder.workspace import StageRecord, Workspace
+from gapfinder.workspace import StageRecord, Workspace, stage_clock
 
 __all__ = [
     "DEFAULT_MAX_GAP",
@@ -135,6 +135,7 @@ def mine_workspace(ws: Workspace, options: MiningOptions | None = None) -> Minin
     >>> with Workspace("ws.duckdb") as ws:  # doctest: +SKIP
     ...     found = mine_workspace(ws, MiningOptions(min_support=0.02, max_gap=1))
     """
+    began = stage_clock()
     options = options or MiningOptions()
     ws.require("full_paths", "sessions", hint="run `gapfinder profile TELEMETRY -w ...` first")
     clock = time.perf_counter()
@@ -154,6 +155,7 @@ def mine_workspace(ws: Workspace, options: MiningOptions | None = None) -> Minin
     seconds = time.perf_counter() - clock
     parameters = {**options.as_parameters(), "min_support_sessions": threshold, "total_sessions": total}
     record = StageRecord(
+        began=began,
         stage="patterns",
         inputs=[str(ws.path)],
         parameters=parameters,

@@ -51,7 +51,7 @@ from gapfinder.gaps import GapOptions, find_gaps
 from gapfinder.paths import feature_names
 from gapfinder.sql import registered, run
 from gapfinder.usage_model import END, START, UsageModel
-from gapfinder.workspace import StageRecord, Workspace
+from gapfinder.workspace import StageRecord, Workspace, stage_clock
 
 __all__ = [
     "COSTS",
@@ -263,6 +263,7 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
     """Build candidate scenarios from the top gaps, select within the budget, store and return the plan."""
     from gapfinder.usage_profile import load_usage_model
 
+    began = stage_clock()
     options = options or PlanOptions()
     tests = load_test_paths(ws)
     items = load_field_items(ws)
@@ -373,7 +374,7 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
         from gapfinder.coverage import planned_and_done
 
         plan["earlier_plan"] = planned_and_done(ws, tests)
-    _store(ws, plan, options)
+    _store(ws, plan, options, began)
     return plan
 
 
@@ -446,7 +447,7 @@ def _scenario_name(steps: Sequence[str]) -> str:
     return " then ".join(s.replace("_", " ") for s in inner)
 
 
-def _store(ws: Workspace, plan: dict[str, Any], options: PlanOptions) -> None:
+def _store(ws: Workspace, plan: dict[str, Any], options: PlanOptions, began: tuple[Any, float]) -> None:
     frame = pa.table(
         {
             "scenario_no": pa.array([r["scenario"] for r in plan["scenarios"]], pa.int32()),
@@ -455,6 +456,7 @@ def _store(ws: Workspace, plan: dict[str, Any], options: PlanOptions) -> None:
         }
     )
     record = StageRecord(
+        began=began,
         stage="plan",
         inputs=[str(ws.path)],
         parameters={"budget": options.budget, "cost": options.cost, "objective": options.objective},

@@ -10,6 +10,7 @@ from __future__ import annotations
 import contextlib
 import json
 import os
+import tempfile
 import time
 from collections.abc import Iterator
 from dataclasses import dataclass, field
@@ -23,29 +24,107 @@ from gapfinder import __version__
 from gapfinder.errors import ConfigError, GapfinderError, InputError, describe_database_error
 from gapfinder.sql import run
 
-__all__ = ["DEFAULT_WORKSPACE", "SCHEMA_VERSION", "StageRecord", "Workspace", "connect_memory"]
+__all__ = [
+    "DEFAULT_WORKSPACE",
+    "SCHEMA_VERSION",
+    "StageRecord",
+    "Workspace",
+    "connect_memory",
+    "default_memory_limit",
+    "engine_settings",
+    "stage_clock",
+    "use_engine",
+]
 
 DEFAULT_WORKSPACE = "gapfinder.duckdb"
 SCHEMA_VERSION = 2  # 2: suite_tests has outcome, left_out and tags
 
 
+# Without --memory-limit DuckDB may use 80 % of the machine; gapfinder caps it at this much, or 60 %
+# of the memory the machine (or its container) has, whichever is less, and spills the rest to disk.
+DEFAULT_MEMORY_CAP = 3 * 1024**3
+DEFAULT_MEMORY_SHARE = 0.6
+_ENGINE: dict[str, Any] = {"threads": None, "memory_limit": None}
+
+
+def machine_memory() -> int | None:
+    """Bytes of memory this process may use: the machine's, or its container's limit when lower."""
+    sizes: list[int] = []
+    with contextlib.suppress(ValueError, OSError, AttributeError):
+        sizes.append(os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES"))
+    for limit_file in ("/sys/fs/cgroup/memory.max", "/sys/fs/cgroup/memory/memory.limit_in_bytes"):
+        with contextlib.suppress(OSError, ValueError):
+            text = Path(limit_file).read_text().strip()
+            if text.isdigit() and int(text) < 2**60:
+                sizes.append(int(text))
+    sizes = [s for s in sizes if s > 0]
+    return min(sizes) if sizes else None
+
+
+def default_memory_limit() -> str:
+    """The DuckDB memory limit used when none is given, as a size literal (e.g. ``3072MiB``)."""
+    total = machine_memory()
+    limit = DEFAULT_MEMORY_CAP if total is None else min(DEFAULT_MEMORY_CAP, int(total * DEFAULT_MEMORY_SHARE))
+    return f"{max(limit, 256 * 1024**2) // 1024**2}MiB"
+
+
+_UNITS = ("K", "M", "G", "T", "KB", "MB", "GB", "TB", "KIB", "MIB", "GIB", "TIB")
+_MIN_MEMORY = 64 * 1024**2
+
+
+def _memory_literal(memory_limit: str) -> str:
+    """A size literal DuckDB accepts, of at least 64 MiB; only digits and a unit are let through."""
+    literal = memory_limit.strip().upper().replace(" ", "")
+    digits = literal.rstrip("KMGTIB")
+    unit = literal[len(digits) :]
+    if not digits.isdigit() or unit not in _UNITS:
+        raise ConfigError(f"--memory-limit {memory_limit!r}: give a size with a unit, such as 4GB, 3GiB or 512MB")
+    power = {"K": 1, "M": 2, "G": 3, "T": 4}[unit[0]]
+    size = int(digits) * (1024 if "I" in unit else 1000) ** power
+    if size < _MIN_MEMORY:
+        raise ConfigError(f"--memory-limit {memory_limit!r}: give at least 64MiB")
+    return literal
+
+
+def use_engine(**settings: Any) -> None:
+    """Set this process's DuckDB ``threads`` and ``memory_limit`` for every connection opened from now
+    on (the CLI calls it with a command's ``--threads`` and ``--memory-limit``); None restores the
+    default. Keys not given are left as they are."""
+    unknown = set(settings) - set(_ENGINE)
+    if unknown:
+        raise TypeError(f"use_engine: unknown setting {sorted(unknown)[0]!r}")
+    if settings.get("memory_limit") is not None:
+        _memory_literal(settings["memory_limit"])
+    _ENGINE.update(settings)
+
+
+def engine_settings() -> dict[str, Any]:
+    """The threads and memory limit connections get: as set by ``use_engine``, else the defaults."""
+    return {"threads": _ENGINE["threads"], "memory_limit": _ENGINE["memory_limit"] or default_memory_limit()}
+
+
 def _configure(con: duckdb.DuckDBPyConnection, *, threads: int | None, memory_limit: str | None) -> None:
     con.execute("SET TimeZone = 'UTC'")
+    threads = threads or _ENGINE["threads"]
     if threads:
         con.execute(f"SET threads = {int(threads)}")
-    if memory_limit:
-        # memory_limit takes a size literal; only digits and a unit are let through.
-        literal = memory_limit.strip().upper().replace(" ", "")
-        if not literal.rstrip("KMGTIB").isdigit():
-            raise ConfigError(f"--memory-limit {memory_limit!r}: give a size such as 4GB or 512MB")
-        con.execute("SET memory_limit = $limit", {"limit": literal})
+    literal = _memory_literal(memory_limit or _ENGINE["memory_limit"] or default_memory_limit())
+    con.execute("SET memory_limit = $limit", {"limit": literal})
 
 
 def connect_memory(*, threads: int | None = None) -> duckdb.DuckDBPyConnection:
-    """An in-memory DuckDB connection configured the way the workspace is (UTC, threads)."""
+    """An in-memory DuckDB connection configured the way the workspace is (UTC, threads, memory
+    limit), spilling to a folder of this process under the system's temporary directory."""
     con = duckdb.connect(":memory:")
     _configure(con, threads=threads, memory_limit=None)
+    spill = Path(tempfile.gettempdir()) / f"gapfinder-spill-{os.getpid()}"
+    con.execute("SET temp_directory = $dir", {"dir": str(spill)})
     return con
+
+
+def stage_clock() -> tuple[datetime, float]:
+    """When a stage began (wall time and a monotonic clock), for ``StageRecord.began``."""
+    return datetime.now(UTC), time.perf_counter()
 
 
 @dataclass
@@ -56,6 +135,7 @@ class StageRecord:
     inputs: list[str] = field(default_factory=list)
     parameters: dict[str, Any] = field(default_factory=dict)
     row_counts: dict[str, int] = field(default_factory=dict)
+    began: tuple[datetime, float] = field(default_factory=stage_clock)  # the whole stage, not only its writes
 
 
 class Workspace:
@@ -66,7 +146,8 @@ class Workspace:
     path:
         The DuckDB file; created when missing.
     threads, memory_limit:
-        DuckDB settings for this process (defaults: all cores, DuckDB's own limit).
+        DuckDB settings for this connection (defaults: those of ``use_engine``, else all cores and
+        ``default_memory_limit()``); work past the limit spills to ``<workspace>.tmp``.
     """
 
     def __init__(
@@ -162,8 +243,7 @@ class Workspace:
     @contextlib.contextmanager
     def stage(self, record: StageRecord) -> Iterator[duckdb.DuckDBPyConnection]:
         """Run a stage's writes in one transaction and record the run when they all succeed."""
-        started = datetime.now(UTC)
-        clock = time.perf_counter()
+        started, clock = record.began
         self.con.execute("BEGIN TRANSACTION")
         try:
             yield self.con

@@ -53,3 +53,67 @@ def test_a_new_profile_clears_stages_built_on_the_old_event_numbering(tmp_path: 
     assert summary["cleared"] == ["suite", "patterns"]
     with Workspace(ws_path, read_only=True) as ws:
         assert not ws.has_table("suite_tests") and not ws.has_table("patterns")
+
+
+def _memory_setting(con: duckdb.DuckDBPyConnection) -> str:
+    return str(con.execute("SELECT current_setting('memory_limit')").fetchall()[0][0])
+
+
+def test_connections_get_a_bounded_memory_limit_by_default(tmp_path: Path) -> None:
+    from gapfinder.workspace import Workspace, connect_memory, default_memory_limit, machine_memory
+
+    literal = default_memory_limit()
+    mebibytes = int(literal.removesuffix("MiB"))
+    assert mebibytes <= 3 * 1024
+    total = machine_memory()
+    if total:
+        assert mebibytes * 1024**2 <= max(0.6 * total, 256 * 1024**2)
+    expected = duckdb.connect()
+    expected.execute("SET memory_limit = $l", {"l": literal})
+    with Workspace(tmp_path / "w.duckdb") as ws:
+        assert _memory_setting(ws.con) == _memory_setting(expected)
+        spill = ws.con.execute("SELECT current_setting('temp_directory')").fetchall()[0][0]
+        assert spill.endswith("w.duckdb.tmp")
+    con = connect_memory()
+    assert _memory_setting(con) == _memory_setting(expected)
+    assert "gapfinder-spill-" in con.execute("SELECT current_setting('temp_directory')").fetchall()[0][0]
+
+
+def test_use_engine_sets_every_later_connection_and_the_cli_resets_it(tmp_path: Path) -> None:
+    from click.testing import CliRunner
+
+    from gapfinder.cli import cli
+    from gapfinder.errors import ConfigError
+    from gapfinder.workspace import Workspace, engine_settings, use_engine
+
+    try:
+        use_engine(memory_limit="1GiB", threads=1)
+        with Workspace(tmp_path / "w.duckdb") as ws:
+            assert _memory_setting(ws.con) == "1.0 GiB"
+            assert ws.con.execute("SELECT current_setting('threads')").fetchall()[0][0] == 1
+        with pytest.raises(ConfigError, match="at least 64MiB"):
+            use_engine(memory_limit="10MB")
+        CliRunner().invoke(cli, ["paths", "-w", str(tmp_path / "none.duckdb")])
+        assert engine_settings()["threads"] is None  # each command starts from the defaults
+    finally:
+        use_engine(threads=None, memory_limit=None)
+
+
+def test_runs_record_the_whole_stage(profiled: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """The seconds in `runs` cover the stage's computation, not only its final writes."""
+    import time
+
+    from gapfinder import patterns
+    from gapfinder.workspace import Workspace
+
+    slow = patterns.load_sequences
+
+    def load_slowly(con: duckdb.DuckDBPyConnection) -> object:
+        time.sleep(0.3)
+        return slow(con)
+
+    monkeypatch.setattr(patterns, "load_sequences", load_slowly)
+    with Workspace(profiled) as ws:
+        patterns.mine_workspace(ws, patterns.MiningOptions(min_support=0.01))
+        seconds = ws.con.execute("SELECT seconds FROM runs WHERE stage = 'patterns'").fetchall()[-1][0]
+    assert seconds >= 0.3

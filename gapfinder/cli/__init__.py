@@ -84,7 +84,8 @@ def output_options(func: F) -> F:
     )(func)
 
 
-def workspace_option(func: F) -> F:
+def plain_workspace_option(func: F) -> F:
+    """``-w/--workspace`` alone (for commands whose own options include --threads and --memory-limit)."""
     return click.option(
         "-w",
         "--workspace",
@@ -93,6 +94,35 @@ def workspace_option(func: F) -> F:
         type=click.Path(dir_okay=False),
         help="The DuckDB workspace file holding every stage's results.",
     )(func)
+
+
+def _set_engine(ctx: click.Context, param: click.Parameter, value: Any) -> Any:
+    from gapfinder.workspace import use_engine
+
+    if value is not None and param.name:
+        use_engine(**{param.name: value})
+    return value
+
+
+def workspace_option(func: F) -> F:
+    """``-w/--workspace`` with ``--threads`` and ``--memory-limit`` for the DuckDB work of the command."""
+    func = click.option(
+        "--memory-limit",
+        "memory_limit",
+        metavar="SIZE",
+        expose_value=False,
+        callback=_set_engine,
+        help="DuckDB memory limit, e.g. 2GB (default: 60 % of memory, at most 3 GB); larger work spills to disk.",
+    )(func)
+    func = click.option(
+        "--threads",
+        "threads",
+        type=click.IntRange(min=1),
+        expose_value=False,
+        callback=_set_engine,
+        help="DuckDB threads (default: all cores).",
+    )(func)
+    return plain_workspace_option(func)
 
 
 def tz_option(func: F) -> F:
@@ -240,8 +270,11 @@ def cli(ctx: click.Context, debug: bool) -> None:
     Try the invented demo: gapfinder run sample_telemetry/field
     --tests sample_telemetry/tests/suite_traces.csv --out report/
     """
+    from gapfinder.workspace import use_engine
+
     ctx.ensure_object(dict)
     ctx.obj["debug"] = debug
+    use_engine(threads=None, memory_limit=None)  # each command starts from the defaults
 
 
 @cli.command()
@@ -282,7 +315,7 @@ def demo(out: str, events: int, seed: int, as_format: str) -> None:
 
 @cli.command()
 @click.argument("telemetry", nargs=-1, required=True)
-@workspace_option
+@plain_workspace_option
 @profile_options
 @click.option(
     "--top", default=10, show_default=True, type=click.IntRange(min=1), help="Rows per listing in the summary."

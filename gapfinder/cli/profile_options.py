@@ -146,7 +146,9 @@ def profile_options(func: F) -> F:
         ),
         click.option("--threads", type=click.IntRange(min=1), help="DuckDB threads (default: all cores)."),
         click.option(
-            "--memory-limit", metavar="SIZE", help="DuckDB memory limit, e.g. 4GB; larger work spills to disk."
+            "--memory-limit",
+            metavar="SIZE",
+            help="DuckDB memory limit, e.g. 2GB (default: 60 % of memory, at most 3 GB); larger work spills to disk.",
         ),
     ]
     for decorate in reversed(decorators):
@@ -159,8 +161,11 @@ def profile_options_from(values: dict[str, Any]) -> Any:
     from gapfinder.privacy import read_key
     from gapfinder.sessions import DEFAULT_ERROR_OUTCOMES, SessionOptions
     from gapfinder.usage_profile import ProfileOptions
+    from gapfinder.workspace import use_engine
 
     v = {k: values.pop(k) for k in PROFILE_OPTION_NAMES}
+    # Every later stage of the command (run's suite, patterns, gaps, plan) works with the same limits.
+    use_engine(threads=v["threads"], memory_limit=v["memory_limit"])
     return ProfileOptions(
         mapping=_parse_mapping(v["config"], v["maps"]),
         feature_keys=_feature_keys(v["config"], v["feature_template"], v["rewrites"], v["keep_ids"]),

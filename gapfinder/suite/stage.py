@@ -26,7 +26,7 @@ from gapfinder.suite.otlp import read_otlp_json
 from gapfinder.suite.plugin_run import read_plugin_run
 from gapfinder.suite.run_events import TestWindow, attribute_run_events
 from gapfinder.suite.traces import read_trace_files
-from gapfinder.workspace import StageRecord, Workspace
+from gapfinder.workspace import StageRecord, Workspace, stage_clock
 
 __all__ = ["DEFAULT_TAGS", "SuiteOptions", "count_decision", "load_suite", "read_suite", "summarize_suite"]
 
@@ -293,6 +293,7 @@ def load_suite(
     ws: Workspace, inputs: Sequence[str | os.PathLike[str]], options: SuiteOptions | None = None
 ) -> dict[str, Any]:
     """Read the suite, resolve its step names against the field events and store it."""
+    began = stage_clock()
     options = options or SuiteOptions()
     ws.require("features", "kpaths", hint="run `gapfinder profile TELEMETRY -w ...` first")
     tag_filter = _tag_filter(options.tags)
@@ -370,6 +371,7 @@ def load_suite(
         ),
     }
     record = StageRecord(
+        began=began,
         stage="suite",
         inputs=[*input_names, *options.events],
         parameters={
