@@ -97,6 +97,10 @@ class GapOptions:
         if self.top < 1:
             raise ConfigError(f"--top {self.top}: give 1 or more")
 
+    def pool_size(self) -> int:
+        """How many candidates get their evidence computed: ``pool``, or ten per listed gap if more."""
+        return max(self.pool, 10 * self.top)
+
 
 @dataclass
 class _Candidate:
@@ -468,7 +472,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         pattern_exercised,
         options.kinds,
         min_users=options.min_users,
-        pool=max(options.pool, 10 * options.top),
+        pool=options.pool_size(),
     )
 
     con = ws.con

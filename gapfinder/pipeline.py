@@ -7,6 +7,7 @@ test lead can paste into a pull request or a wiki.
 
 from __future__ import annotations
 
+import dataclasses
 import os
 import shutil
 import tempfile
@@ -19,7 +20,7 @@ from gapfinder.errors import ConfigError, InputError
 from gapfinder.export import STEPS_MAP, export_plan
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.patterns import MiningOptions, mine_workspace
-from gapfinder.plan import PlanOptions, make_plan
+from gapfinder.plan import PlanOptions, make_plan, plan_gap_options
 from gapfinder.quoting import markdown_code, markdown_text
 from gapfinder.report.markdown import decision_of, privacy_note
 from gapfinder.report.markdown import markdown_path as _path
@@ -143,10 +144,23 @@ def _run_into(
         say("mining journeys")
         mined = mine_workspace(ws, mining or MiningOptions())
         say("ranking gaps")
-        gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users, tz=(plan or PlanOptions()).tz))
+        plan_options = plan or PlanOptions(min_users=min_users)
+        wanted = GapOptions(top=top, min_users=min_users, tz=plan_options.tz)
+        for_plan = plan_gap_options(plan_options)
+        # Gap evidence is the heaviest step after profiling: computed once for the listing and the
+        # plan when both search the same pool (ranks do not move with `top`, so each takes a prefix).
+        shared = wanted.pool_size() == for_plan.pool_size() and dataclasses.replace(
+            wanted, top=1
+        ) == dataclasses.replace(for_plan, top=1)
+        if shared:
+            found = find_gaps(ws, dataclasses.replace(wanted, top=max(top, plan_options.candidates)))
+            gaps = {**found, "gaps": found["gaps"][:top]}
+        else:
+            found = None
+            gaps = find_gaps(ws, wanted)
         unused = unused_tests(ws, min_users=min_users)
         say("planning scenarios")
-        planned = make_plan(ws, plan or PlanOptions(min_users=min_users))
+        planned = make_plan(ws, plan_options, gaps=found)
     files: list[str] = []
     if planned["scenarios"]:
         say("exporting skeletons")

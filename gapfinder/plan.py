@@ -259,8 +259,19 @@ def _objective_items(
     return sets, weights
 
 
-def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, Any]:
-    """Build candidate scenarios from the top gaps, select within the budget, store and return the plan."""
+def plan_gap_options(options: PlanOptions) -> GapOptions:
+    """The gap search a plan draws its candidates from."""
+    return GapOptions(top=options.candidates, min_users=options.min_users, tz=options.tz)
+
+
+def make_plan(
+    ws: Workspace, options: PlanOptions | None = None, *, gaps: dict[str, Any] | None = None
+) -> dict[str, Any]:
+    """Build candidate scenarios from the top gaps, select within the budget, store and return the plan.
+
+    ``gaps`` is a result of ``find_gaps`` already computed with ``plan_gap_options(options)`` (or
+    with a larger ``top`` over the same pool: ranks do not move with ``top``); without it the gaps
+    are found here."""
     from gapfinder.usage_profile import load_usage_model
 
     began = stage_clock()
@@ -269,7 +280,10 @@ def make_plan(ws: Workspace, options: PlanOptions | None = None) -> dict[str, An
     items = load_field_items(ws)
     if options.objective == "patterns" and not items.patterns:
         raise ConfigError("--objective patterns: no mined patterns yet; run `gapfinder paths --kind patterns` first")
-    gap_result = find_gaps(ws, GapOptions(top=options.candidates, min_users=options.min_users, tz=options.tz))
+    if gaps is None:
+        gap_result = find_gaps(ws, plan_gap_options(options))
+    else:
+        gap_result = {**gaps, "gaps": gaps["gaps"][: options.candidates]}
     model = load_usage_model(ws.con)
     names = feature_names(ws.con)
     ids = {name: i for i, name in enumerate(names)}

@@ -152,3 +152,21 @@ def test_every_ranked_gap_says_whether_the_plan_covers_it(suite_workspace: Path,
         assert (d["status"] == "planned") == (d["rank"] in planned_ranks), d
         assert d["why"]
     assert any(d["status"] == "over budget" and "smallest planned one adds" in d["why"] for d in decisions)
+
+
+def test_a_plan_from_gaps_found_once_equals_the_plan_that_finds_its_own(demo_ws: Path) -> None:
+    """run finds the gaps once for its listing and its plan: ranks do not move with `top`."""
+    import dataclasses
+
+    from gapfinder.gaps import find_gaps
+    from gapfinder.plan import plan_gap_options
+
+    options = PlanOptions(budget=4)
+    with Workspace(demo_ws) as ws:
+        alone = make_plan(ws, options)
+        wider = find_gaps(ws, dataclasses.replace(plan_gap_options(options), top=options.candidates))
+        shorter = find_gaps(ws, dataclasses.replace(plan_gap_options(options), top=10))
+        shared = make_plan(ws, options, gaps=wider)
+    assert [g["path"] for g in shorter["gaps"]] == [g["path"] for g in wider["gaps"][:10]]
+    assert [s["path"] for s in shared["scenarios"]] == [s["path"] for s in alone["scenarios"]]
+    assert shared["coverage"] == alone["coverage"]
