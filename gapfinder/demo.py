@@ -326,14 +326,15 @@ def generate_demo(
     fails_first = next(i for i, j in enumerate(JOURNEYS) if j.name == "card_fails_then_voucher")
     is_error[(journey_of[sess] == fails_first) & (code == _CODE["pay_deposit_card"])] = True
 
-    user_ids = np.char.add("m", np.char.zfill(np.arange(user_count).astype(str), 6))
+    # Integer codes throughout; names only as the dictionaries of the Parquet columns (memory and
+    # time stay linear in the number of events).
     columns: dict[str, Any] = {
-        "user_id": user_ids[user_of[sess]],
+        "user": user_of[sess].astype(np.int32),
         "ts": ts,
-        "event": np.array(FEATURES)[code],
-        "app_version": versions[version[sess]],
-        "platform": platforms[platform_of_user[user_of[sess]]],
-        "outcome": np.where(is_error, "error", "ok"),
+        "event": code.astype(np.int32),
+        "app_version": version[sess].astype(np.int32),
+        "platform": platform_of_user[user_of[sess]].astype(np.int32),
+        "outcome": is_error.astype(np.int32),
     }
 
     # The automated account: short fixed pauses, the same two screens over and over.
@@ -342,17 +343,28 @@ def generate_demo(
     bot_starts = START_DATE + (bot_days * 86_400 + 3 * 3600).astype("timedelta64[s]").astype("timedelta64[us]")
     steps = np.arange(BOT_EVENTS_PER_SESSION)
     bot_ts = (bot_starts[:, None] + (steps[None, :] * 2_000_000).astype("timedelta64[us]")).ravel()
-    bot_event = np.tile(np.array(BOT_LOOP)[steps % 2], len(bot_starts))
-    bot_id = "m" + str(user_count).zfill(6)
+    bot_event = np.tile(np.array([_CODE[name] for name in BOT_LOOP])[steps % 2], len(bot_starts))
     bot_n = len(bot_ts)
-    columns["user_id"] = np.concatenate([columns["user_id"], np.full(bot_n, bot_id)])
+    bot_values = {
+        "user": user_count,
+        "app_version": list(versions).index("4.2"),
+        "platform": list(platforms).index("web"),
+        "outcome": 0,
+    }
+    for name, value in bot_values.items():
+        columns[name] = np.concatenate([columns[name], np.full(bot_n, value, dtype=np.int32)])
     columns["ts"] = np.concatenate([columns["ts"], bot_ts])
-    columns["event"] = np.concatenate([columns["event"], bot_event])
-    columns["app_version"] = np.concatenate([columns["app_version"], np.full(bot_n, "4.2")])
-    columns["platform"] = np.concatenate([columns["platform"], np.full(bot_n, "web")])
-    columns["outcome"] = np.concatenate([columns["outcome"], np.full(bot_n, "ok")])
+    columns["event"] = np.concatenate([columns["event"], bot_event.astype(np.int32)])
+    labels = {
+        # member ids are zero-padded, so their order is their number's order (the bot is the last)
+        "user": np.char.add("m", np.char.zfill(np.arange(user_count + 1).astype(str), 6)),
+        "event": np.array(FEATURES),
+        "app_version": versions,
+        "platform": platforms,
+        "outcome": np.array(["ok", "error"]),
+    }
 
-    field_files = _write_field(field_dir, columns)
+    field_files = _write_field(field_dir, columns, labels)
     if as_format != "parquet":
         field_files = _rewrite_field(field_files, as_format)
     suite_file = _write_suite(target / "tests")
@@ -409,15 +421,18 @@ def generate_demo(
     )
 
 
-def _dictionary(values: np.ndarray) -> pa.DictionaryArray:
-    labels, codes = np.unique(values, return_inverse=True)
-    return pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32)), pa.array(labels.tolist()))
+def _dictionary(codes: np.ndarray, labels: np.ndarray) -> pa.DictionaryArray:
+    """A dictionary column of the labels the codes use, in label order (codes renumbered)."""
+    used = np.unique(codes)
+    renumber = np.zeros(len(labels), dtype=np.int32)
+    renumber[used] = np.arange(len(used), dtype=np.int32)
+    return pa.DictionaryArray.from_arrays(pa.array(renumber[codes]), pa.array(labels[used].tolist()))
 
 
-def _write_field(field_dir: Path, columns: dict[str, Any]) -> list[Path]:
+def _write_field(field_dir: Path, columns: dict[str, Any], labels: dict[str, np.ndarray]) -> list[Path]:
     """Hive-partitioned by month, rows ordered by member and time, zstd-compressed."""
     month = columns["ts"].astype("datetime64[M]")
-    order = np.lexsort((columns["ts"], columns["user_id"], month))
+    order = np.lexsort((columns["ts"], columns["user"], month))
     month = month[order]
     boundaries = np.r_[0, np.nonzero(month[1:] != month[:-1])[0] + 1, len(month)]
     written = []
@@ -427,12 +442,12 @@ def _write_field(field_dir: Path, columns: dict[str, Any]) -> list[Path]:
         folder.mkdir(parents=True, exist_ok=True)
         table = pa.table(
             {
-                "user_id": pa.array(columns["user_id"][part]),
+                "user_id": _dictionary(columns["user"][part], labels["user"]).cast(pa.string()),
                 "ts": pa.array(columns["ts"][part], type=pa.timestamp("us", tz="UTC")),
-                "event": _dictionary(columns["event"][part]),
-                "app_version": _dictionary(columns["app_version"][part]),
-                "platform": _dictionary(columns["platform"][part]),
-                "outcome": _dictionary(columns["outcome"][part]),
+                "event": _dictionary(columns["event"][part], labels["event"]),
+                "app_version": _dictionary(columns["app_version"][part], labels["app_version"]),
+                "platform": _dictionary(columns["platform"][part], labels["platform"]),
+                "outcome": _dictionary(columns["outcome"][part], labels["outcome"]),
             }
         )
         path = folder / "events.parquet"
