@@ -1,4 +1,4 @@
-"""Synthetic session paths shaped like BENCHMARKS.md's workload, for the miner benchmark.
+"""Synthetic session paths shaped like BENCHMARKS.md's workload, for the miner and profile benchmarks.
 
 200 feature names with Zipf-like popularity, Markov-like transitions (each feature has a few
 favoured successors), sessions of about 20 events. Vectorized with numpy: one step of all
@@ -6,6 +6,8 @@ sessions at a time, never a Python loop over events.
 """
 
 from __future__ import annotations
+
+from pathlib import Path
 
 import numpy as np
 
@@ -49,3 +51,31 @@ def as_lists(db: SequenceDatabase) -> list[list[int]]:
         seq = items[db.starts[i] : db.starts[i + 1]]
         out.extend([seq] * w)
     return out
+
+
+def synthetic_telemetry(path: Path, events: int, *, seed: int = 1) -> Path:
+    """Write about ``events`` events of synthetic sessions as telemetry (user_id, ts, event) to Parquet.
+
+    Two sessions per user, an hour apart (so idle gaps split them), 20 s between events."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    db = synthetic_sessions(max(1, events // 20), seed=seed)
+    lengths = np.diff(db.starts)
+    session = np.repeat(np.arange(len(lengths)), lengths)
+    position = np.arange(len(db.items)) - db.starts[session]
+    user = (session // 2).astype(np.int32)
+    offsets = session.astype(np.int64) * 3_600_000_000 + position * 20_000_000
+    ts = np.datetime64("2026-01-01", "us") + offsets.astype("timedelta64[us]")
+    user_labels = pa.array([f"u{i:07d}" for i in range(int(user.max()) + 1)])
+    names = pa.array([f"feature_{i:03d}" for i in range(int(db.items.max()) + 1)])
+    table = pa.table(
+        {
+            "user_id": pa.DictionaryArray.from_arrays(pa.array(user), user_labels).cast(pa.string()),
+            "ts": pa.array(ts, pa.timestamp("us", tz="UTC")),
+            "event": pa.DictionaryArray.from_arrays(pa.array(db.items.astype(np.int32)), names),
+        }
+    )
+    path.parent.mkdir(parents=True, exist_ok=True)
+    pq.write_table(table, path)
+    return path

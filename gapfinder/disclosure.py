@@ -92,7 +92,8 @@ def complementary_suppression(
             if len(first):
                 hidden[first["row"].to_numpy()] = True
                 changed = True
-            orphans = np.setdiff1d(np.asarray(lone), first["group"].to_numpy())
+            # both are unique (a groupby index, and one row per group): no sorting needed
+            orphans = np.setdiff1d(np.asarray(lone), first["group"].to_numpy(), assume_unique=True)
             parents = position.get_indexer(orphans)
             parents = parents[parents >= 0]
             parents = parents[~hidden[parents]]

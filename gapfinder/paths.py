@@ -119,11 +119,14 @@ def list_kpaths(
     min_sessions: int = 1,
     limit: int | None = None,
     total_sessions: int | None = None,
+    hidden: np.ndarray | None = None,
 ) -> Listing:
     """Contiguous paths of length min_k..max_k, most sessions first, suppression applied.
 
-    ``suppressed_count`` counts every hidden row of that length, whatever ``min_sessions``."""
-    hidden = hidden_kpath_codes(con, min_users=min_users)
+    ``suppressed_count`` counts every hidden row of that length, whatever ``min_sessions``.
+    ``hidden`` is ``hidden_kpath_codes(con, min_users=min_users)`` when the caller has it already."""
+    if hidden is None:
+        hidden = hidden_kpath_codes(con, min_users=min_users)
     with registered(con, hidden_kpath_codes=_code_frame(hidden)):
         rows = fetch_dicts(
             con,
@@ -169,9 +172,12 @@ def list_features(
     min_sessions: int = 1,
     limit: int | None = None,
     total_sessions: int | None = None,
+    hidden: np.ndarray | None = None,
 ) -> Listing:
-    """Features by occurrences with sessions and users, suppression applied."""
-    hidden = hidden_kpath_codes(con, min_users=min_users)
+    """Features by occurrences with sessions and users, suppression applied (``hidden`` as in
+    ``list_kpaths``)."""
+    if hidden is None:
+        hidden = hidden_kpath_codes(con, min_users=min_users)
     with registered(con, hidden_kpath_codes=_code_frame(hidden)):
         rows = fetch_dicts(
             con,

@@ -22,6 +22,7 @@ from gapfinder.paths import (
     DEFAULT_MAX_K,
     build_paths,
     feature_names,
+    hidden_kpath_codes,
     list_features,
     list_full_paths,
     list_kpaths,
@@ -267,8 +268,12 @@ def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_
     stats = fetch_dicts(con, "summarize_sessions")[0]
     names = feature_names(con)
     total = int(stats["session_count"] or 0)
-    features = list_features(con, min_users=min_users, limit=top, total_sessions=total)
-    transitions = list_kpaths(con, min_k=2, max_k=2, min_users=min_users, limit=top, total_sessions=total)
+    # The suppression pattern is computed over every k-path once and shared by both listings.
+    hidden = hidden_kpath_codes(con, min_users=min_users)
+    features = list_features(con, min_users=min_users, limit=top, total_sessions=total, hidden=hidden)
+    transitions = list_kpaths(
+        con, min_k=2, max_k=2, min_users=min_users, limit=top, total_sessions=total, hidden=hidden
+    )
     full_paths = list_full_paths(con, min_users=min_users, limit=top, total_sessions=total)
     distinct_paths = con.execute("SELECT count(*) FROM full_paths").fetchone()
     model = load_usage_model(con)
