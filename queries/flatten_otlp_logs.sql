@@ -10,7 +10,7 @@
 --   outcome     'error' for severityNumber 17 (ERROR) or more or an exception.type attribute,
 --               'ok' for another known severity, else severityText.
 -- Attributes and resource attributes are kept as maps of text (first value of a repeated key).
--- Parameters: none.
+-- Uses the macros of create_otlp_macros.sql. Parameters: none.
 WITH resources AS (
     SELECT unnest(resourceLogs) AS r FROM otlp_documents
 ),
@@ -22,38 +22,18 @@ records AS (
 ),
 texted AS (
     SELECT
-        list_transform(
-            list_filter(coalesce(resource_pairs, []), lambda a: a.key IS NOT NULL),
-            lambda a: {'key': a.key, 'value': coalesce(
-                a.value.stringValue, CAST(a.value.boolValue AS VARCHAR), a.value.intValue, a.value.doubleValue,
-                a.value.bytesValue, CAST(a.value.arrayValue AS VARCHAR), CAST(a.value.kvlistValue AS VARCHAR))}
-        ) AS resource_list,
-        list_transform(
-            list_filter(coalesce(l.attributes, []), lambda a: a.key IS NOT NULL),
-            lambda a: {'key': a.key, 'value': coalesce(
-                a.value.stringValue, CAST(a.value.boolValue AS VARCHAR), a.value.intValue, a.value.doubleValue,
-                a.value.bytesValue, CAST(a.value.arrayValue AS VARCHAR), CAST(a.value.kvlistValue AS VARCHAR))}
-        ) AS attribute_list,
+        otlp_attributes(resource_pairs) AS resource,
+        otlp_attributes(l.attributes) AS attributes,
         scope_name,
         l.timeUnixNano AS time_text,
         l.observedTimeUnixNano AS observed_text,
         l.severityNumber AS severity_raw,
         l.severityText AS severity_text,
         l.eventName AS event_name,
-        coalesce(l.body.stringValue, CAST(l.body.boolValue AS VARCHAR), l.body.intValue, l.body.doubleValue,
-            CAST(l.body.arrayValue AS VARCHAR), CAST(l.body.kvlistValue AS VARCHAR)) AS body,
+        otlp_text(l.body) AS body,
         l.traceId AS trace_id,
         l.spanId AS span_id
     FROM records
-),
-mapped AS (
-    SELECT
-        map_from_entries(list_filter(resource_list, lambda a, i:
-            list_position(list_transform(resource_list, lambda b: b.key), a.key) = i)) AS resource,
-        map_from_entries(list_filter(attribute_list, lambda a, i:
-            list_position(list_transform(attribute_list, lambda b: b.key), a.key) = i)) AS attributes,
-        * EXCLUDE (resource_list, attribute_list)
-    FROM texted
 ),
 timed AS (
     SELECT
@@ -72,7 +52,7 @@ timed AS (
                 'SEVERITY_NUMBER_FATAL', 'SEVERITY_NUMBER_FATAL2', 'SEVERITY_NUMBER_FATAL3', 'SEVERITY_NUMBER_FATAL4'
             ], upper(severity_raw)), 0)
         ) AS severity_number
-    FROM mapped
+    FROM texted
 )
 SELECT
     time_unix_nano,

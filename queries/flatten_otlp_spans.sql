@@ -8,7 +8,7 @@
 --   app_version service.version, platform os.type or device.model.identifier (resource attributes);
 --   outcome     'error' for status code ERROR (2) or an exception.type attribute, else 'ok'.
 -- span_kind is the SpanKind number (2 SERVER, 5 CONSUMER: the entry points of a request).
--- Parameters: none.
+-- Uses the macros of create_otlp_macros.sql. Parameters: none.
 WITH resources AS (
     SELECT unnest(resourceSpans) AS r FROM otlp_documents
 ),
@@ -20,18 +20,8 @@ records AS (
 ),
 texted AS (
     SELECT
-        list_transform(
-            list_filter(coalesce(resource_pairs, []), lambda a: a.key IS NOT NULL),
-            lambda a: {'key': a.key, 'value': coalesce(
-                a.value.stringValue, CAST(a.value.boolValue AS VARCHAR), a.value.intValue, a.value.doubleValue,
-                a.value.bytesValue, CAST(a.value.arrayValue AS VARCHAR), CAST(a.value.kvlistValue AS VARCHAR))}
-        ) AS resource_list,
-        list_transform(
-            list_filter(coalesce(l.attributes, []), lambda a: a.key IS NOT NULL),
-            lambda a: {'key': a.key, 'value': coalesce(
-                a.value.stringValue, CAST(a.value.boolValue AS VARCHAR), a.value.intValue, a.value.doubleValue,
-                a.value.bytesValue, CAST(a.value.arrayValue AS VARCHAR), CAST(a.value.kvlistValue AS VARCHAR))}
-        ) AS attribute_list,
+        otlp_attributes(resource_pairs) AS resource,
+        otlp_attributes(l.attributes) AS attributes,
         scope_name,
         l.startTimeUnixNano AS time_text,
         l.endTimeUnixNano AS end_text,
@@ -45,11 +35,7 @@ texted AS (
 ),
 mapped AS (
     SELECT
-        map_from_entries(list_filter(resource_list, lambda a, i:
-            list_position(list_transform(resource_list, lambda b: b.key), a.key) = i)) AS resource,
-        map_from_entries(list_filter(attribute_list, lambda a, i:
-            list_position(list_transform(attribute_list, lambda b: b.key), a.key) = i)) AS attributes,
-        * EXCLUDE (resource_list, attribute_list),
+        *,
         nullif(try_cast(time_text AS BIGINT), 0) AS time_unix_nano,
         nullif(try_cast(end_text AS BIGINT), 0) AS end_unix_nano,
         coalesce(

@@ -21,7 +21,7 @@ from pathlib import Path
 import duckdb
 
 from gapfinder.errors import InputError, describe_database_error
-from gapfinder.sql import fetch_dicts, load
+from gapfinder.sql import fetch_dicts, load, run
 
 __all__ = ["OTLP_KINDS", "OtlpFacts", "convert_otlp", "sniff_otlp_kind"]
 
@@ -100,6 +100,7 @@ def convert_otlp(
 ) -> OtlpFacts:
     """Flatten OTLP/JSON ``files`` of ``kind`` into the Parquet file ``out_path``."""
     key, schema, query, _what = OTLP_KINDS[kind]
+    run(con, "create_otlp_macros")
     try:
         documents = con.read_json(
             list(files),
