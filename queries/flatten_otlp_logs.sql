@@ -10,7 +10,7 @@
 --   outcome     'error' for severityNumber 17 (ERROR) or more or an exception.type attribute,
 --               'ok' for another known severity, else severityText.
 -- Attributes and resource attributes are kept as maps of text (first value of a repeated key).
--- Uses the macros of create_otlp_macros.sql. Parameters: none.
+-- Uses the macros of create_otlp_*_macro.sql. Parameters: none.
 WITH resources AS (
     SELECT unnest(resourceLogs) AS r FROM otlp_documents
 ),

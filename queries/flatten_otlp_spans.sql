@@ -8,7 +8,7 @@
 --   app_version service.version, platform os.type or device.model.identifier (resource attributes);
 --   outcome     'error' for status code ERROR (2) or an exception.type attribute, else 'ok'.
 -- span_kind is the SpanKind number (2 SERVER, 5 CONSUMER: the entry points of a request).
--- Uses the macros of create_otlp_macros.sql. Parameters: none.
+-- Uses the macros of create_otlp_*_macro.sql. Parameters: none.
 WITH resources AS (
     SELECT unnest(resourceSpans) AS r FROM otlp_documents
 ),

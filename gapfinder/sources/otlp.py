@@ -100,7 +100,8 @@ def convert_otlp(
 ) -> OtlpFacts:
     """Flatten OTLP/JSON ``files`` of ``kind`` into the Parquet file ``out_path``."""
     key, schema, query, _what = OTLP_KINDS[kind]
-    run(con, "create_otlp_macros")
+    for macro in ("create_otlp_text_macro", "create_otlp_unique_map_macro", "create_otlp_attributes_macro"):
+        run(con, macro)
     try:
         documents = con.read_json(
             list(files),
