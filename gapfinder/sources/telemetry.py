@@ -353,7 +353,7 @@ def _open_mapped(
             )
         for canonical, column in defaults.items():
             chosen.setdefault(canonical, column)
-        if "user_id" not in chosen or chosen.get("user_id") == "user_id":
+        if chosen.get("user_id") == "user_id":
             used = facts.user_id_from if files.format != "xes" else {}
             fallback = [n for n in used if n not in ("user.id", "enduser.pseudo.id", "enduser.id")]
             if fallback:

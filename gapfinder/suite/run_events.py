@@ -28,6 +28,7 @@ import pyarrow as pa
 
 from gapfinder.errors import InputError, describe_database_error
 from gapfinder.sql import fetch_dicts, registered
+from gapfinder.workspace import connect_memory
 
 __all__ = ["RunEvents", "TestWindow", "attribute_run_events"]
 
@@ -77,10 +78,9 @@ def attribute_run_events(
     rewrite rules and id templates), so a test's steps meet the field's features."""
     from gapfinder.sources.telemetry import open_telemetry
 
-    con = duckdb.connect(":memory:")
+    con = connect_memory()
     closing: list[Any] = []
     try:
-        con.execute("SET TimeZone = 'UTC'")
         opened = open_telemetry(
             con,
             inputs,

@@ -14,6 +14,7 @@ from gapfinder.errors import InputError, describe_database_error
 from gapfinder.quoting import printable
 from gapfinder.sources.formats import SourceFiles, open_relation
 from gapfinder.suite.model import ReaderReport, TestTrace
+from gapfinder.workspace import connect_memory
 
 __all__ = ["TRACE_COLUMNS", "read_trace_files"]
 
@@ -23,7 +24,7 @@ TRACE_COLUMNS: tuple[str, ...] = ("test_id", "step_no", "ts", "event")
 def read_trace_files(source: SourceFiles, mapping: dict[str, str] | None = None) -> ReaderReport:
     """Read the traces in ``source`` (files of one format) into TestTrace objects."""
     mapping = mapping or {}
-    con = duckdb.connect(":memory:")
+    con = connect_memory()
     try:
         relation = open_relation(con, source)
         columns = {c.lower(): c for c in relation.columns}
