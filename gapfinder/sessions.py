@@ -18,7 +18,15 @@ from gapfinder.errors import ConfigError, InputError
 from gapfinder.privacy import hmac_pads
 from gapfinder.sql import fetch_dicts, run
 
-__all__ = ["DEFAULT_ERROR_OUTCOMES", "SessionOptions", "build_sessions", "count_source_rows"]
+__all__ = [
+    "DEFAULT_ERROR_OUTCOMES",
+    "SessionOptions",
+    "SourceRowCounts",
+    "build_sessions",
+    "check_feature_count",
+    "count_source_rows",
+    "finish_sessions",
+]
 
 # Paths are rebuilt from (position << 16 | event id), so event ids must fit in 16 bits.
 MAX_FEATURES = 65_534
@@ -80,20 +88,25 @@ class SourceRowCounts:
     first_ts: Any = None
     last_ts: Any = None
 
+    @classmethod
+    def from_rows(cls, rows: list[dict[str, Any]]) -> SourceRowCounts:
+        """From the rows of count_source_rows.sql (one per reason, NULL for usable rows)."""
+        counts = cls()
+        for row in rows:
+            counts.rows_read += row["row_count"]
+            counts.naive_timestamps += row["naive_ts_count"]
+            if row["reason"] is None:
+                counts.usable_rows = row["row_count"]
+                counts.noise_dropped = row["noise_count"]
+                counts.first_ts, counts.last_ts = row["first_ts"], row["last_ts"]
+            else:
+                counts.rejected[row["reason"]] = row["row_count"]
+        return counts
+
 
 def count_source_rows(con: duckdb.DuckDBPyConnection, options: SessionOptions) -> SourceRowCounts:
     """Count source rows per rejection reason (one scan of ``mapped_source``)."""
-    counts = SourceRowCounts()
-    for row in fetch_dicts(con, "count_source_rows", noise_events=list(options.drop_events)):
-        counts.rows_read += row["row_count"]
-        counts.naive_timestamps += row["naive_ts_count"]
-        if row["reason"] is None:
-            counts.usable_rows = row["row_count"]
-            counts.noise_dropped = row["noise_count"]
-            counts.first_ts, counts.last_ts = row["first_ts"], row["last_ts"]
-        else:
-            counts.rejected[row["reason"]] = row["row_count"]
-    return counts
+    return SourceRowCounts.from_rows(fetch_dicts(con, "count_source_rows", noise_events=list(options.drop_events)))
 
 
 def build_sessions(
@@ -110,12 +123,8 @@ def build_sessions(
     """
     noise = list(options.drop_events)
     run(con, "create_features", noise_events=noise)
-    feature_count = run(con, "count_features").fetchone()
-    if feature_count and feature_count[0] > MAX_FEATURES:
-        raise InputError(
-            f"the telemetry has {feature_count[0]:,} distinct event names; gapfinder handles up to "
-            f"{MAX_FEATURES:,}: map a coarser event column or drop the noisiest events with --drop"
-        )
+    feature_count = run(con, "count_features").fetchall()
+    check_feature_count(int(feature_count[0][0]) if feature_count else 0)
     run(con, "create_user_keys", noise_events=noise)
     inner, outer = hmac_pads(pseudonymize_key) if pseudonymize_key else (None, None)
     run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
@@ -130,6 +139,21 @@ def build_sessions(
     else:
         idle_us = round(options.idle_minutes * 60 * 1_000_000)
         run(con, "create_raw_sessions_by_idle_gap", idle_us=idle_us, **shared)
+    finish_sessions(con, options=options, include_automated=include_automated)
+
+
+def check_feature_count(count: int) -> None:
+    """Refuse more distinct event names than paths can encode."""
+    if count > MAX_FEATURES:
+        raise InputError(
+            f"the telemetry has {count:,} distinct event names; gapfinder handles up to "
+            f"{MAX_FEATURES:,}: map a coarser event column or drop the noisiest events with --drop"
+        )
+
+
+def finish_sessions(con: duckdb.DuckDBPyConnection, *, options: SessionOptions, include_automated: bool) -> None:
+    """From the temporary table raw_sessions (one row per session, from either engine): write
+    automated_users, full_paths and sessions, then drop the temporary tables."""
     run(
         con,
         "create_automated_users",

@@ -12,11 +12,12 @@ import os
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import asdict, dataclass, field
 from datetime import datetime
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import duckdb
 import pyarrow as pa
 
+from gapfinder.engines import EventEngine, make_engine
 from gapfinder.errors import InputError, QueryError
 from gapfinder.paths import (
     DEFAULT_MAX_K,
@@ -29,12 +30,15 @@ from gapfinder.paths import (
 )
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.report.markdown import privacy_note
-from gapfinder.sessions import MAX_FEATURES, SessionOptions, build_sessions, count_source_rows
-from gapfinder.sources import OpenedSource, open_telemetry
+from gapfinder.sessions import SessionOptions
+from gapfinder.sources import OpenedSource
 from gapfinder.sources.feature_keys import FeatureKeys
 from gapfinder.sql import fetch_dicts, registered, run
 from gapfinder.usage_model import END, START, UsageModel
 from gapfinder.workspace import StageRecord, Workspace, open_for_stage
+
+if TYPE_CHECKING:
+    from gapfinder.engines.spark import SparkSettings
 
 __all__ = ["ProfileOptions", "load_usage_model", "profile_telemetry", "summarize_profile"]
 
@@ -55,6 +59,8 @@ class ProfileOptions:
     pseudonymize_key: bytes | None = None
     threads: int | None = None
     memory_limit: str | None = None
+    # None: every pass in DuckDB; else the event-scale passes on Apache Spark (gapfinder.engines.spark).
+    spark: SparkSettings | None = None
 
 
 def _iso(value: Any) -> str | None:
@@ -143,24 +149,20 @@ def profile_telemetry(
                 "pseudonymized": options.pseudonymize_key is not None,
             },
         )
-        say("reading telemetry")
-        source = open_telemetry(
-            ws.con,
-            inputs,
-            options.mapping,
-            ts_unit=options.ts_unit,
-            ts_format=options.ts_format,
-            feature_keys=options.feature_keys,
-            max_names=MAX_FEATURES,
-        )
+        engine = make_engine(options.spark)
+        if options.spark is not None:
+            record.parameters["engine"] = options.spark.as_parameters()
+        say("reading telemetry" if options.spark is None else "reading telemetry with Spark")
         try:
-            return _profile_source(ws, source, record, options, say=say, top=top, min_users=min_users)
+            source = engine.open(ws.con, inputs, options)
+            return _profile_source(ws, engine, source, record, options, say=say, top=top, min_users=min_users)
         finally:
-            source.close()
+            engine.close()
 
 
 def _profile_source(
     ws: Workspace,
+    engine: EventEngine,
     source: OpenedSource,
     record: StageRecord,
     options: ProfileOptions,
@@ -170,7 +172,7 @@ def _profile_source(
     min_users: int,
 ) -> dict[str, Any]:
     with _reading(source.files.label):
-        counts = count_source_rows(ws.con, options.sessions)
+        counts = engine.count_rows(ws.con, options.sessions)
     if counts.rows_read == 0:
         raise InputError(f"{source.files.label}: no events in the input (0 rows)")
     if counts.usable_rows - counts.noise_dropped <= 0:
@@ -200,7 +202,7 @@ def _profile_source(
         cleared = _clear_dependent_stages(ws)
         say("forming sessions")
         with _reading(source.files.label):
-            build_sessions(
+            engine.build_sessions(
                 con,
                 options=options.sessions,
                 use_session_column=source.has_session_column,
@@ -212,7 +214,6 @@ def _profile_source(
         say("fitting the usage model")
         _fit_model(con)
         run(con, "upsert_meta", key="profile_reading", value=json.dumps(reading, sort_keys=True))
-        con.unregister("mapped_source")
         summary = summarize_profile(ws, top=top, min_users=min_users)
         summary["cleared"] = cleared
         record.row_counts = {

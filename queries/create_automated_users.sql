@@ -5,6 +5,7 @@
 --     to Detect and Handle Outliers", 1993), exceeds $min_robust_z (a zero MAD counts as exceeding);
 --   * the value is at least $min_ratio times the median user's;
 --   * the user has at least $min_events events in all.
+-- Active minutes are summed in whole microseconds, so the value does not depend on summation order.
 -- Reads raw_sessions. Parameters: $min_robust_z (DOUBLE), $min_ratio (DOUBLE), $min_events (INTEGER).
 CREATE OR REPLACE TABLE automated_users AS
 WITH per_user AS (
@@ -14,7 +15,7 @@ WITH per_user AS (
         sum(event_count)::DOUBLE AS event_count,
         sum(event_count)::DOUBLE / count(*) AS events_per_session,
         sum(event_count)::DOUBLE
-            / greatest(sum(epoch(ended_at) - epoch(started_at)) / 60.0, 1.0) AS events_per_minute
+            / greatest(sum(epoch_us(ended_at) - epoch_us(started_at))::DOUBLE / 60e6, 1.0) AS events_per_minute
     FROM raw_sessions
     GROUP BY user_key
 ),

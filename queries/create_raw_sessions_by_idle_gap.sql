@@ -25,7 +25,7 @@ WITH encoded AS (
         s.platform
     FROM mapped_source AS s
     JOIN user_keys AS u ON u.user_id = trim(s.user_id)
-    JOIN features AS f ON f.event = trim(s.event)
+    JOIN features AS f ON f.event = trim(s.event) AND f.event_id >= 2
     WHERE s.ts IS NOT NULL AND NOT list_contains($noise_events, trim(s.event))
 ),
 ordered AS (

@@ -150,6 +150,32 @@ def profile_options(func: F) -> F:
             metavar="SIZE",
             help="DuckDB memory limit, e.g. 2GB (default: 60 % of memory, at most 3 GB); larger work spills to disk.",
         ),
+        click.option(
+            "--engine",
+            type=click.Choice(["duckdb", "spark"]),
+            default="duckdb",
+            show_default=True,
+            help="Where the passes over every event run: DuckDB on this machine, or Apache Spark "
+            "(pip install 'gapfinder[spark]'; Parquet on any path Spark reads, such as s3a://).",
+        ),
+        click.option(
+            "--spark-master",
+            metavar="URL",
+            help="Spark master for --engine spark (default: the active session, else local[*]).",
+        ),
+        click.option(
+            "--spark-conf",
+            "spark_conf",
+            multiple=True,
+            metavar="KEY=VALUE",
+            help="A Spark setting for --engine spark, e.g. spark.executor.memory=8g; repeatable.",
+        ),
+        click.option(
+            "--spark-staging",
+            metavar="FOLDER",
+            help="Folder Spark writes the per-session results to and this machine reads "
+            "(default: a private temporary folder; on a cluster, a shared mount).",
+        ),
     ]
     for decorate in reversed(decorators):
         func = decorate(func)
@@ -164,6 +190,7 @@ def profile_options_from(values: dict[str, Any]) -> Any:
     from gapfinder.workspace import use_engine
 
     v = {k: values.pop(k) for k in PROFILE_OPTION_NAMES}
+    spark = _spark_settings(v)
     # Every later stage of the command (run's suite, patterns, gaps, plan) works with the same limits.
     use_engine(threads=v["threads"], memory_limit=v["memory_limit"])
     return ProfileOptions(
@@ -184,7 +211,21 @@ def profile_options_from(values: dict[str, Any]) -> Any:
         pseudonymize_key=read_key(env_var=v["key_env"], key_file=v["key_file"]),
         threads=v["threads"],
         memory_limit=v["memory_limit"],
+        spark=spark,
     )
+
+
+def _spark_settings(v: dict[str, Any]) -> Any:
+    """SparkSettings for --engine spark; the Spark options without it are refused."""
+    given = [name for name in ("spark_master", "spark_conf", "spark_staging") if v[name]]
+    if v["engine"] != "spark":
+        if given:
+            option = "--" + given[0].replace("_", "-")
+            raise click.UsageError(f"{option} needs --engine spark")
+        return None
+    from gapfinder.engines.spark import SparkSettings, parse_spark_conf
+
+    return SparkSettings(master=v["spark_master"], conf=parse_spark_conf(v["spark_conf"]), staging=v["spark_staging"])
 
 
 PROFILE_OPTION_NAMES = (
@@ -207,4 +248,8 @@ PROFILE_OPTION_NAMES = (
     "key_file",
     "threads",
     "memory_limit",
+    "engine",
+    "spark_master",
+    "spark_conf",
+    "spark_staging",
 )

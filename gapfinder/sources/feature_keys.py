@@ -28,7 +28,7 @@ import duckdb
 from duckdb import CaseExpression, ConstantExpression, FunctionExpression
 
 from gapfinder.errors import ConfigError, InputError, QueryError
-from gapfinder.sql import fetch_dicts, load, run
+from gapfinder.sql import fetch_dicts, load, registered, run
 
 __all__ = [
     "DEFAULT_ID_RULES",
@@ -161,7 +161,7 @@ def _check_rule(con: duckdb.DuckDBPyConnection, label: str, pattern: str, replac
     try:
         con.execute(
             "SELECT regexp_replace('x', $pattern, $replacement, 'g')", {"pattern": pattern, "replacement": replacement}
-        )
+        ).fetchall()
     except duckdb.Error:
         raise ConfigError(
             f"{label}: not a regular expression DuckDB (RE2) accepts; escape special characters with \\ "
@@ -170,19 +170,30 @@ def _check_rule(con: duckdb.DuckDBPyConnection, label: str, pattern: str, replac
 
 
 def apply_rules(
-    con: duckdb.DuckDBPyConnection, keys: FeatureKeys, *, max_names: int, label: str
+    con: duckdb.DuckDBPyConnection,
+    keys: FeatureKeys,
+    *,
+    max_names: int,
+    label: str,
+    name_counts: Any = None,
 ) -> tuple[bool, KeyReport]:
-    """Collect the distinct names of ``mapped_source`` and run the rules on them.
+    """Collect the distinct names of ``mapped_source_raw`` and run the rules on them.
 
-    Leaves the temporary table ``event_name_map`` (raw → name, changed names only) and returns whether
-    any name changed, with the report. Refuses more than ``max_names`` distinct names after the rules.
+    ``name_counts`` (an Arrow table of ``raw``, ``events``) gives the distinct names instead, when
+    another engine counted them. Leaves the temporary table ``event_name_map`` (raw → name, changed
+    names only) and returns whether any name changed, with the report. Refuses more than
+    ``max_names`` distinct names after the rules.
     """
     report = KeyReport(template=keys.template)
     rules = keys.rules()
     for rule_label, pattern, replacement, _passes in rules:
         _check_rule(con, rule_label, pattern, replacement)
     try:
-        run(con, "create_raw_event_names")
+        if name_counts is None:
+            run(con, "create_raw_event_names")
+        else:
+            with registered(con, raw_name_counts_frame=name_counts):
+                run(con, "create_raw_event_names_from_counts")
         report.raw_names = report.names = _count_names(con)
         for rule_label, pattern, replacement, passes in rules:
             for _ in range(passes):

@@ -20,6 +20,7 @@ import pytest
 from click.testing import CliRunner
 
 from gapfinder.cli import cli
+from tests.helpers import SAMPLE
 
 SECRET = "carol.secret@private.example"  # a raw user id that must never be echoed
 
@@ -70,6 +71,45 @@ def _plan_ws(ws: str) -> str:
 
 
 CASES: dict[str, Case] = {
+    # --- the Spark engine's options (refused before Spark starts) ---
+    "spark-master-without-engine": lambda f, w: [
+        "profile",
+        str(SAMPLE / "field"),
+        "-w",
+        w,
+        "--spark-master",
+        "local[2]",
+    ],
+    "spark-conf-malformed": lambda f, w: [
+        "profile",
+        str(SAMPLE / "field"),
+        "-w",
+        w,
+        "--engine",
+        "spark",
+        "--spark-conf",
+        f"{SECRET}",
+    ],
+    "spark-staging-remote": lambda f, w: [
+        "profile",
+        str(SAMPLE / "field"),
+        "-w",
+        w,
+        "--engine",
+        "spark",
+        "--spark-staging",
+        "s3a://bucket/stage",
+    ],
+    "spark-staging-missing": lambda f, w: [
+        "profile",
+        str(SAMPLE / "field"),
+        "-w",
+        w,
+        "--engine",
+        "spark",
+        "--spark-staging",
+        str(f / "no-such-folder"),
+    ],
     # --- telemetry readers (profile) ---
     "csv-empty": lambda f, w: ["profile", _csv(f / "e.csv", ""), "-w", w],
     "csv-header-only": lambda f, w: ["profile", _csv(f / "h.csv", "user_id,ts,event\n"), "-w", w],
