@@ -141,7 +141,12 @@ class UsageModel:
         G.add_node(END)
         for source, target, count in transitions:
             if count > 0:
-                G.add_edge(source, target, count=int(count))
+                # An event literally named START or END shares its name with a frame state: its
+                # transitions are added to the state's, so the model does not depend on row order.
+                if G.has_edge(source, target):
+                    G[source][target]["count"] += int(count)
+                else:
+                    G.add_edge(source, target, count=int(count))
         for node in G.nodes:
             total = sum(d["count"] for _, _, d in G.out_edges(node, data=True))
             for _, _, d in G.out_edges(node, data=True):

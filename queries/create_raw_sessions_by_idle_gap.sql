@@ -1,7 +1,7 @@
 -- Creates the temporary table raw_sessions: one row per session, formed by splitting each user's
 -- events where the gap since the previous event exceeds $idle_us microseconds (a gap exactly
 -- equal stays in the session). Events with equal timestamps are ordered by event name, then
--- outcome, so results do not depend on file order. Each session gets its ordered path of event
+-- outcome, app version and platform (rows equal in all of these are interchangeable), so results do not depend on file order. Each session gets its ordered path of event
 -- ids (cut at $max_events when that is positive), the positions in it (from 1) whose event failed,
 -- counts, errors, time span (first to last event, a dropped repeat included) and the segment
 -- values at its first event. With $collapse_repeats an event equal to the one before it in the same
@@ -50,7 +50,8 @@ ordered AS (
             | (is_error::BIGINT << 16)
             | event_id AS packed_no_start
     FROM encoded
-    WINDOW w AS (PARTITION BY user_key ORDER BY ts, event_id, outcome NULLS FIRST)
+    WINDOW w AS (PARTITION BY user_key ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
+        platform NULLS FIRST)
 ),
 per_user AS (
     SELECT

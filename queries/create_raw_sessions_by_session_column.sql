@@ -1,6 +1,6 @@
 -- Creates the temporary table raw_sessions from the input's own session column: sessions are the
 -- distinct (user, session id) pairs, numbered within the user in order of their first event;
--- events are ordered by timestamp, event name, outcome. Same columns and options as
+-- events are ordered by timestamp, event name, outcome, app version, platform. Same columns and options as
 -- create_raw_sessions_by_idle_gap.sql. Reads mapped_source, features, user_keys.
 -- Parameters: $collapse_repeats, $max_events, $noise_events, $error_outcomes.
 CREATE OR REPLACE TEMP TABLE raw_sessions AS
@@ -25,7 +25,8 @@ ordered AS (
         row_number() OVER w AS seq,
         lag(event_id) OVER w AS prev_event_id
     FROM encoded
-    WINDOW w AS (PARTITION BY user_key, session_id ORDER BY ts, event_id, outcome NULLS FIRST)
+    WINDOW w AS (PARTITION BY user_key, session_id ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
+        platform NULLS FIRST)
 ),
 grouped AS (
     SELECT

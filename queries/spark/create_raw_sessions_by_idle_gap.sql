@@ -1,7 +1,7 @@
 -- Returns one row per session formed by splitting each user's events where the gap since the
 -- previous event exceeds :idle_us microseconds: the Spark SQL twin of
 -- queries/create_raw_sessions_by_idle_gap.sql, with the same columns and meaning. Events with
--- equal timestamps are ordered by event id (name order), then outcome. One window sort by user and
+-- equal timestamps are ordered by event id (name order), then outcome, app version, platform. One window sort by user and
 -- time marks session starts (a running sum numbers them); each session's kept events are collected
 -- as (seq, event_id, is_error) structs and sorted, so a user with any number of events is handled
 -- without bit packing. With :collapse_repeats an event equal to the one before it is dropped from
@@ -33,12 +33,14 @@ marked AS (
         END AS is_start,
         coalesce(:collapse_repeats AND event_id = lag(event_id) OVER w, false) AS is_repeat
     FROM encoded
-    WINDOW w AS (PARTITION BY user_key ORDER BY ts, event_id, outcome NULLS FIRST)
+    WINDOW w AS (PARTITION BY user_key ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
+        platform NULLS FIRST)
 ),
 numbered AS (
     SELECT
         *,
-        sum(is_start) OVER (PARTITION BY user_key ORDER BY ts, event_id, outcome NULLS FIRST
+        sum(is_start) OVER (PARTITION BY user_key ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
+        platform NULLS FIRST
                             ROWS BETWEEN UNBOUNDED PRECEDING AND CURRENT ROW) AS session_no
     FROM marked
 ),

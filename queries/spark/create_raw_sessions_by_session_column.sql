@@ -1,7 +1,7 @@
 -- Returns one row per session of the input's own session column: the Spark SQL twin of
 -- queries/create_raw_sessions_by_session_column.sql, with the same columns and meaning. Sessions
 -- are the distinct (user, session id) pairs, numbered within the user by their first event, then
--- session id; events are ordered by timestamp, event id, outcome. Reads mapped_source, features,
+-- session id; events are ordered by timestamp, event id, outcome, app version, platform. Reads mapped_source, features,
 -- user_keys. Parameters: :collapse_repeats, :max_events, :noise_events, :error_outcomes.
 WITH encoded AS (
     SELECT
@@ -24,7 +24,8 @@ ordered AS (
         row_number() OVER w AS seq,
         lag(event_id) OVER w AS prev_event_id
     FROM encoded
-    WINDOW w AS (PARTITION BY user_key, session_id ORDER BY ts, event_id, outcome NULLS FIRST)
+    WINDOW w AS (PARTITION BY user_key, session_id ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
+        platform NULLS FIRST)
 ),
 grouped AS (
     SELECT

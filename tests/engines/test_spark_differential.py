@@ -88,6 +88,8 @@ def _edge_rows() -> list[dict[str, Any]]:
         # equal timestamps with different events and outcomes: ordered by name, then outcome
         rows += [
             {"user_id": user, "ts": t, "event": "search", "outcome": "ok", "app_version": "2.1"},
+            # equal in time, event and outcome too: the segments decide, so the first event's are fixed
+            {"user_id": user, "ts": t, "event": "search", "outcome": "ok", "platform": "android"},
             {"user_id": user, "ts": t, "event": "item", "outcome": None, "platform": "ios"},
             {"user_id": user, "ts": t, "event": "item", "outcome": " ERROR "},
         ]
