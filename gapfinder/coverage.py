@@ -364,6 +364,9 @@ def coverage_report(ws: Workspace, *, max_gap: int = 0, min_users: int = DEFAULT
     totals = fetch_dicts(ws.con, "summarize_sessions")[0]
     result["sessions"] = int(totals["session_count"] or 0)
     result["suite"] = suite_reading(ws)
+    from gapfinder.representativeness import suite_discriminant
+
+    result["representativeness"] = suite_discriminant(ws).as_dict()
     if ws.has_table("plan_scenarios"):
         result["planned"] = planned_and_done(ws, tests)
     return result

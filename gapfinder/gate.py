@@ -108,6 +108,7 @@ def run_gate(
     floors: Sequence[Floor],
     *,
     max_new_gaps: int | None = None,
+    max_divergence: float | None = None,
     top: int = 10,
     baseline: str | None = None,
     max_gap: int = 0,
@@ -115,8 +116,10 @@ def run_gate(
     tz: str | None = None,
 ) -> dict[str, Any]:
     """Evaluate every check; ``passed`` is True only when all of them hold."""
-    if not floors and max_new_gaps is None:
-        raise ConfigError("nothing to check: give --min-coverage METRIC=VALUE and/or --max-new-gaps N")
+    if not floors and max_new_gaps is None and max_divergence is None:
+        raise ConfigError(
+            "nothing to check: give --min-coverage METRIC=VALUE, --max-new-gaps N and/or --max-divergence BITS"
+        )
     checks: list[dict[str, Any]] = []
     if floors:
         report = coverage_report(ws, max_gap=max_gap)
@@ -136,6 +139,18 @@ def run_gate(
                     "passed": value >= floor.value,
                 }
             )
+    if max_divergence is not None:
+        from gapfinder.representativeness import suite_discriminant
+
+        divergence = suite_discriminant(ws)
+        checks.append(
+            {
+                "check": "divergence of the tests' steps from the users' (Whittaker-Thomason, bits per step)",
+                "value": divergence.bits_per_step,
+                "limit": max_divergence,
+                "passed": divergence.bits_per_step <= max_divergence,
+            }
+        )
     if max_new_gaps is not None:
         gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users, tz=tz))["gaps"]
         if baseline:

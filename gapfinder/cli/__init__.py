@@ -779,6 +779,13 @@ def audit_command(
 )
 @click.option("--max-new-gaps", type=click.IntRange(min=0), help="Most new gaps allowed among the top-ranked ones.")
 @click.option(
+    "--max-divergence",
+    type=FiniteFloat(min=0),
+    metavar="BITS",
+    help="Most divergence allowed between how the tests step and how users step (Whittaker-Thomason "
+    "discriminant, bits per step; see `gapfinder coverage`).",
+)
+@click.option(
     "--top",
     default=10,
     show_default=True,
@@ -800,6 +807,7 @@ def check(
     workspace: str,
     floors: tuple[str, ...],
     max_new_gaps: int | None,
+    max_divergence: float | None,
     top: int,
     baseline: str | None,
     max_gap: int,
@@ -821,6 +829,7 @@ def check(
             ws,
             parsed,
             max_new_gaps=max_new_gaps,
+            max_divergence=max_divergence,
             top=top,
             baseline=baseline,
             max_gap=max_gap,
@@ -837,8 +846,11 @@ def check(
     else:
         for c in result["checks"]:
             mark = "pass" if c["passed"] else "FAIL"
-            value = f"{100 * c['value']:.1f} %" if isinstance(c["value"], float) else str(c["value"])
-            limit = f"{100 * c['limit']:.1f} %" if isinstance(c["limit"], float) else str(c["limit"])
+            if c["check"].startswith("divergence"):
+                value, limit = f"{c['value']:.3f} bits/step", f"{c['limit']:.3f} bits/step"
+            else:
+                value = f"{100 * c['value']:.1f} %" if isinstance(c["value"], float) else str(c["value"])
+                limit = f"{100 * c['limit']:.1f} %" if isinstance(c["limit"], float) else str(c["limit"])
             relation = "≥" if c["check"].startswith("coverage") else "≤"
             click.echo(f"{mark}  {c['check']}: {value} (needs {relation} {limit})")
             for path in c.get("new_gaps", []):

@@ -369,6 +369,13 @@ def render_coverage(result: dict[str, Any], console: Console) -> None:
             _pct(t["unique_session_share"]["transitions"]),
         )
     console.print(tests)
+    divergence = result.get("representativeness")
+    if divergence:
+        console.print(
+            f"[bold]Representativeness[/]: {divergence['bits_per_step']:.3f} bits per step "
+            f"(Whittaker-Thomason discriminant; {divergence['arcs_tested']:,} of {divergence['usage_arcs']:,} "
+            f"transitions users take are walked by a test): {divergence['meaning']}"
+        )
 
 
 # Below this many columns a table would squeeze the path column: gaps are shown one block each.

@@ -42,6 +42,21 @@ def test_check_exit_codes(ws: str) -> None:
     assert nothing.exit_code == 2 and "nothing to check" in nothing.stderr
 
 
+def test_check_gates_the_divergence_of_the_tests_from_usage(ws: str) -> None:
+    with_suite(ws)
+    coverage = invoke("coverage", "-w", ws, "--format", "json")
+    measured = json.loads(coverage.stdout)["representativeness"]
+    assert 0 < measured["bits_per_step"] < 10 and measured["arcs_tested"] <= measured["usage_arcs"]
+    below = invoke("check", "-w", ws, "--max-divergence", str(measured["bits_per_step"] / 2))
+    assert below.exit_code == 1 and "bits/step" in below.stdout
+    above = invoke("check", "-w", ws, "--max-divergence", str(measured["bits_per_step"] * 2), "--format", "json")
+    assert above.exit_code == 0
+    (entry,) = json.loads(above.stdout)["checks"]
+    assert entry["value"] == measured["bits_per_step"]
+    assert invoke("check", "-w", ws, "--max-divergence", "-1").exit_code == 2
+    assert invoke("check", "-w", ws, "--max-divergence", "nan").exit_code == 2
+
+
 def test_report_writes_html_and_markdown(ws: str, tmp_path: Path) -> None:
     with_suite(ws)
     html, md = tmp_path / "coverage.html", tmp_path / "coverage.md"
