@@ -28,7 +28,7 @@ import numpy as np
 from gapfinder.errors import ConfigError
 from gapfinder.paths import feature_names, id_bits
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_arrow, fetch_dicts
+from gapfinder.sql import fetch_arrow, fetch_dicts, first_row
 from gapfinder.workspace import Workspace
 
 __all__ = [
@@ -187,7 +187,7 @@ def load_field_items(ws: Workspace) -> FieldItems:
     )
     if ws.has_table("patterns"):
         rows = con.execute("SELECT path, sessions, users FROM patterns ORDER BY pattern_no").fetchall()
-        meta = con.execute("SELECT value FROM meta WHERE key = 'patterns_parameters'").fetchone()
+        meta = first_row(con.execute("SELECT value FROM meta WHERE key = 'patterns_parameters'"))
         items.patterns = [tuple(r[0]) for r in rows]
         items.pattern_sessions = np.array([r[1] for r in rows], dtype=np.int64)
         items.pattern_users = np.array([r[2] for r in rows], dtype=np.int64)

@@ -17,7 +17,7 @@ import pyarrow as pa
 from gapfinder.disclosure import complementary_suppression, kpath_parents
 from gapfinder.errors import ConfigError
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_arrow, fetch_dicts, registered, run
+from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, registered, run
 
 __all__ = [
     "DEFAULT_MAX_K",
@@ -54,7 +54,7 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
     """Write kpaths (features, transitions and k-paths up to max_k) from full_paths and sessions."""
     if not 2 <= max_k <= MAX_K:
         raise ConfigError(f"--max-k {max_k}: give 2 to {MAX_K} (2 counts transitions only)")
-    row = run(con, "count_features").fetchone()
+    row = first_row(run(con, "count_features"))
     bits = id_bits(int(row[0]) if row else 2)
     if max_k * bits > 60:
         raise ConfigError(
@@ -66,7 +66,7 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
 
 def feature_names(con: duckdb.DuckDBPyConnection) -> list[str]:
     """Event names indexed by event id (START = 0, END = 1)."""
-    row = run(con, "list_feature_names").fetchone()
+    row = first_row(run(con, "list_feature_names"))
     return list(row[0]) if row and row[0] else []
 
 

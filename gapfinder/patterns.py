@@ -21,7 +21,7 @@ from gapfinder.errors import ConfigError
 from gapfinder.mining import DEFAULT_MAX_PATTERNS, PatternSet, SequenceDatabase, mine_patterns, resolve_min_support
 from gapfinder.paths import Listing, feature_names
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_arrow, fetch_dicts, registered, run
+from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, registered, run
 from gapfinder.workspace import StageRecord, Workspace, stage_clock
 
 __all__ = [
@@ -83,7 +83,7 @@ class MiningRun:
 
 
 def profile_included_automated(con: duckdb.DuckDBPyConnection) -> bool:
-    row = run(con, "read_last_run_parameters", stage="profile").fetchone()
+    row = first_row(run(con, "read_last_run_parameters", stage="profile"))
     return bool(json.loads(row[0]).get("include_automated")) if row else False
 
 
@@ -256,7 +256,7 @@ def usage_paths(
             listing = list_kpaths(con, min_k=2, max_k=2, **common)
             rows = listing.rows
         elif kind == "kpaths":
-            stored = con.execute("SELECT coalesce(max(k), 2) FROM kpaths").fetchone()
+            stored = first_row(con.execute("SELECT coalesce(max(k), 2) FROM kpaths"))
             longest = int(stored[0]) if stored else 2
             if max_length is not None and max_length < 3:
                 raise ConfigError(f"--max-length {max_length}: k-paths have 3 or more states; give 3 or more")

@@ -49,7 +49,7 @@ from gapfinder.coverage import (
 from gapfinder.errors import ConfigError
 from gapfinder.gaps import GapOptions, find_gaps
 from gapfinder.paths import feature_names
-from gapfinder.sql import registered, run
+from gapfinder.sql import first_row, registered, run
 from gapfinder.usage_model import END, START, UsageModel
 from gapfinder.workspace import StageRecord, Workspace, stage_clock
 
@@ -486,7 +486,7 @@ def _store(ws: Workspace, plan: dict[str, Any], options: PlanOptions, began: tup
 def load_plan(ws: Workspace) -> dict[str, Any]:
     """The stored plan (as ``make_plan`` returned it)."""
     ws.require("plan_scenarios", hint="run `gapfinder plan -w ... --budget N` first")
-    meta = ws.con.execute("SELECT value FROM meta WHERE key = 'plan'").fetchone()
+    meta = first_row(ws.con.execute("SELECT value FROM meta WHERE key = 'plan'"))
     plan: dict[str, Any] = json.loads(meta[0]) if meta else {}
     rows = ws.con.execute("SELECT details FROM plan_scenarios ORDER BY scenario_no").fetchall()
     plan["scenarios"] = [json.loads(r[0]) for r in rows]

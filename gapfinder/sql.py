@@ -17,7 +17,7 @@ import duckdb
 
 from gapfinder.errors import QueryError, describe_database_error
 
-__all__ = ["fetch_arrow", "fetch_dicts", "load", "query_dir", "registered", "run"]
+__all__ = ["fetch_arrow", "fetch_dicts", "first_row", "load", "query_dir", "registered", "run"]
 
 
 @functools.cache
@@ -49,6 +49,13 @@ def run(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> duckdb.D
     except duckdb.Error as exc:
         reason = describe_database_error(exc)
         raise QueryError(f"query {name}.sql failed: {reason}", reason=reason) from None
+
+
+def first_row(cursor: duckdb.DuckDBPyConnection) -> Any:
+    """The first row of a result, or None, leaving no unfinished result on the connection (DuckDB 2
+    refuses other work on a connection whose result was only partly fetched)."""
+    rows = cursor.fetchall()
+    return rows[0] if rows else None
 
 
 def fetch_dicts(con: duckdb.DuckDBPyConnection, name: str, /, **params: Any) -> list[dict[str, Any]]:

@@ -33,7 +33,7 @@ from gapfinder.report.markdown import privacy_note
 from gapfinder.sessions import SessionOptions
 from gapfinder.sources import OpenedSource
 from gapfinder.sources.feature_keys import FeatureKeys
-from gapfinder.sql import fetch_dicts, registered, run
+from gapfinder.sql import fetch_dicts, first_row, registered, run
 from gapfinder.usage_model import END, START, UsageModel
 from gapfinder.workspace import StageRecord, Workspace, open_for_stage
 
@@ -264,7 +264,7 @@ def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_
     """The profile summary from the workspace: reading, sessions, features, paths, model, bots."""
     ws.require("sessions", "kpaths", "usage_edges", hint="run `gapfinder profile TELEMETRY -w ...` first")
     con = ws.con
-    meta = con.execute("SELECT value FROM meta WHERE key = 'profile_reading'").fetchone()
+    meta = first_row(con.execute("SELECT value FROM meta WHERE key = 'profile_reading'"))
     reading = json.loads(meta[0]) if meta else {}
     stats = fetch_dicts(con, "summarize_sessions")[0]
     names = feature_names(con)
@@ -276,7 +276,7 @@ def summarize_profile(ws: Workspace, *, top: int = 10, min_users: int = DEFAULT_
         con, min_k=2, max_k=2, min_users=min_users, limit=top, total_sessions=total, hidden=hidden
     )
     full_paths = list_full_paths(con, min_users=min_users, limit=top, total_sessions=total)
-    distinct_paths = con.execute("SELECT count(*) FROM full_paths").fetchone()
+    distinct_paths = first_row(con.execute("SELECT count(*) FROM full_paths"))
     model = load_usage_model(con)
     accounts = fetch_dicts(con, "list_automated_users")
     return {

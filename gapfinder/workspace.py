@@ -22,7 +22,7 @@ import duckdb
 
 from gapfinder import __version__
 from gapfinder.errors import ConfigError, GapfinderError, InputError, describe_database_error
-from gapfinder.sql import run
+from gapfinder.sql import first_row, run
 
 __all__ = [
     "DEFAULT_WORKSPACE",
@@ -192,7 +192,7 @@ class Workspace:
         try:
             if not self.has_table("meta"):
                 return
-            row = self.con.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
+            row = first_row(self.con.execute("SELECT value FROM meta WHERE key = 'schema_version'"))
         except (duckdb.Error, GapfinderError):
             raise InputError(
                 f"workspace {self.path} cannot be read (it is damaged or not a gapfinder workspace): "
@@ -232,7 +232,7 @@ class Workspace:
         self.close()
 
     def has_table(self, name: str) -> bool:
-        return bool(run(self.con, "has_table", name=name).fetchone()[0])  # type: ignore[index]
+        return bool(first_row(run(self.con, "has_table", name=name))[0])
 
     def require(self, *tables: str, hint: str) -> None:
         """Raise a clear error when a stage's inputs are not in the workspace yet."""

@@ -183,7 +183,9 @@ def suite(
     with Workspace(workspace, read_only=not os.path.exists(workspace)) as ws:
         sources: list[str] = list(traces)
         if add and ws.has_table("suite_tests"):
-            row = ws.con.execute("SELECT value FROM meta WHERE key = 'suite_reading'").fetchone()
+            from gapfinder.sql import first_row
+
+            row = first_row(ws.con.execute("SELECT value FROM meta WHERE key = 'suite_reading'"))
             earlier = json.loads(row[0]).get("inputs", []) if row else []
             sources = [*earlier, *(t for t in traces if t not in earlier)]
         summary = load_suite(ws, sources, options)

@@ -1,5 +1,6 @@
 """Presentation: terminal tables (rich), one self-contained HTML page, and Markdown."""
 
+from gapfinder.report.effort_table import render_effort
 from gapfinder.report.html import render_html
 from gapfinder.report.markdown import render_markdown
 from gapfinder.report.terminal import (
@@ -19,6 +20,7 @@ __all__ = [
     "render_alignment",
     "render_audit",
     "render_coverage",
+    "render_effort",
     "render_gaps",
     "render_html",
     "render_markdown",

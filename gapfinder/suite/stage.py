@@ -15,7 +15,7 @@ import pyarrow as pa
 from gapfinder.align import load_aliases, resolve_step_names
 from gapfinder.errors import ConfigError, InputError
 from gapfinder.sources.formats import SourceFiles
-from gapfinder.sql import fetch_dicts, registered, run
+from gapfinder.sql import fetch_dicts, first_row, registered, run
 from gapfinder.suite.catalog import read_catalog
 from gapfinder.suite.cucumber import read_cucumber_json, read_cucumber_messages
 from gapfinder.suite.discover import SuiteFile, discover_suite_files
@@ -398,7 +398,7 @@ def summarize_suite(ws: Workspace) -> dict[str, Any]:
     """What the stored suite holds: tests with outcomes, steps resolved, what was left out and why."""
     ws.require("suite_tests", "suite_steps", hint="run `gapfinder suite TRACES... -w ...` first")
     con = ws.con
-    meta = con.execute("SELECT value FROM meta WHERE key = 'suite_reading'").fetchone()
+    meta = first_row(con.execute("SELECT value FROM meta WHERE key = 'suite_reading'"))
     reading = json.loads(meta[0]) if meta else {}
     tests = fetch_dicts(con, "list_suite_tests")
     steps = fetch_dicts(con, "count_suite_steps_by_resolution")

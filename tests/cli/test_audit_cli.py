@@ -57,6 +57,25 @@ def test_check_gates_the_divergence_of_the_tests_from_usage(ws: str) -> None:
     assert invoke("check", "-w", ws, "--max-divergence", "nan").exit_code == 2
 
 
+def test_effort_lists_features_by_the_gap_between_effort_and_usage(ws: str) -> None:
+    with_suite(ws)
+    result = invoke("effort", "-w", ws, "--tests", "20", "--critical", "pay_deposit_card=3", "--format", "json")
+    assert result.exit_code == 0, result.output
+    data = json.loads(result.stdout)
+    rows = {r["event"]: r for r in data["features"]}
+    assert sum(r["recommended_tests"] for r in data["features"]) <= 20
+    assert rows["pay_deposit_card"]["recommended_tests"] >= 3
+    assert abs(sum(r["usage_share"] for r in data["features"]) - 1) < 0.05  # suppressed features aside
+    for row in data["features"]:
+        assert row["difference_low"] <= row["difference"] <= row["difference_high"]
+        assert (row["verdict"] == "over-tested") == (row["difference_low"] > 0)
+    table = invoke("effort", "-w", ws)
+    assert table.exit_code == 0 and "Test effort against usage" in table.stdout
+    bad = invoke("effort", "-w", ws, "--critical", "no_such_feature=2")
+    assert bad.exit_code == 2 and "--critical no_such_feature" in bad.stderr
+    assert invoke("effort", "-w", ws, "--critical", "pay=x").exit_code == 2
+
+
 def test_report_writes_html_and_markdown(ws: str, tmp_path: Path) -> None:
     with_suite(ws)
     html, md = tmp_path / "coverage.html", tmp_path / "coverage.md"
