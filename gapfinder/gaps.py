@@ -37,13 +37,14 @@ from gapfinder.coverage import (
     occurs_in,
 )
 from gapfinder.errors import ConfigError
+from gapfinder.gap_evidence import gap_evidence
 from gapfinder.mining import containing_sequences
 from gapfinder.occurrences import first_occurrences
 from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated
 from gapfinder.periods import Period, split_in_halves, time_zone
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_dicts, registered
+from gapfinder.sql import fetch_dicts
 from gapfinder.stats import ratio_interval, wilson_interval
 from gapfinder.workspace import Workspace
 
@@ -534,14 +535,9 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             "rate": pa.array([e / o if o else 0.0 for o, e in totals.values()], pa.float64()),
         }
     )
-    with registered(con, gap_paths=frame, event_rates=rates):
-        evidence = {
-            r["candidate"]: r
-            for r in fetch_dicts(
-                con, "list_gap_evidence", midpoint=recent_half.start, include_automated=include_automated
-            )
-        }
-        segment_rows = fetch_dicts(con, "list_gap_segments", include_automated=include_automated)
+    evidence, segment_rows = gap_evidence(
+        con, frame, rates, candidates=len(pool), midpoint=recent_half.start, include_automated=include_automated
+    )
     # A segment value is named only when the gap's sessions in it and the value itself each have
     # at least min_users distinct users (an app version one person used must not be shown).
     segment_totals = {
