@@ -68,8 +68,12 @@ def gap_evidence(
             run(con, "drop_gap_session_groups")
         width = MASK_BITS
         for offset in range(0, candidates, width):
-            window = {"offset": offset, "width": width, "include_automated": include_automated}
-            masks = fetch_arrow(con, "list_gap_user_masks", midpoint=midpoint, **window)
+            run(con, "create_gap_path_masks", offset=offset, width=width)
+            try:
+                masks = fetch_arrow(con, "list_gap_user_masks", midpoint=midpoint, include_automated=include_automated)
+                by_value = fetch_arrow(con, "list_gap_segment_user_masks", include_automated=include_automated)
+            finally:
+                run(con, "drop_gap_path_masks")
             weights = _column(masks, "users")
             users[offset : offset + width] += _bit_counts(_column(masks, "low"), _column(masks, "high"), weights)[
                 :width
@@ -77,7 +81,6 @@ def gap_evidence(
             earlier[offset : offset + width] += _bit_counts(
                 _column(masks, "earlier_low"), _column(masks, "earlier_high"), weights
             )[:width]
-            by_value = fetch_arrow(con, "list_gap_segment_user_masks", **window)
             segments, values = _column(by_value, "segment"), _column(by_value, "value")
             low, high, counts = _column(by_value, "low"), _column(by_value, "high"), _column(by_value, "users")
             # rows come ordered by segment and value: cut them where either changes
