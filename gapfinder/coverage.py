@@ -367,6 +367,9 @@ def coverage_report(ws: Workspace, *, max_gap: int = 0, min_users: int = DEFAULT
     from gapfinder.representativeness import suite_discriminant
 
     result["representativeness"] = suite_discriminant(ws).as_dict()
+    from gapfinder.redundancy import redundant_tests
+
+    result["redundant"] = redundant_tests(tests, items)
     if ws.has_table("plan_scenarios"):
         result["planned"] = planned_and_done(ws, tests)
     return result

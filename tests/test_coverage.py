@@ -163,3 +163,26 @@ def test_adding_a_test_never_lowers_coverage_and_strict_is_at_most_lenient(
         assert s["exercised"] <= le["exercised"]
         for key in ("by_occurrences", "by_sessions", "by_users"):
             assert (s[key] or 0) <= (le[key] or 0) + 1e-12
+
+
+def test_redundant_tests_lose_nothing_when_taken_out(suite_workspace: Path) -> None:
+    from gapfinder.redundancy import redundant_tests
+    from gapfinder.workspace import Workspace
+
+    with Workspace(suite_workspace, read_only=True) as ws:
+        tests = load_test_paths(ws)
+        items = load_field_items(ws)
+    doubled = TestPaths([*tests.test_ids, "copy_of_first"], [*tests.framed, tests.framed[0]])
+    listed = redundant_tests(doubled, items)
+    assert listed and all(r["loss"] == 0 for r in listed)
+    assert {tests.test_ids[0], "copy_of_first"} & {r["test_id"] for r in listed}
+    gone = {r["test_id"] for r in listed}
+    kept = TestPaths(
+        [t for t in doubled.test_ids if t not in gone],
+        [f for t, f in zip(doubled.test_ids, doubled.framed, strict=True) if t not in gone],
+    )
+    before = compute_coverage(doubled, items, per_test=False)["metrics"]["transitions"]["strict"]
+    after = compute_coverage(kept, items, per_test=False)["metrics"]["transitions"]["strict"]
+    assert after == before
+    # every test left exercises something no other does
+    assert redundant_tests(kept, items) == []

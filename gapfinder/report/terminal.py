@@ -369,6 +369,15 @@ def render_coverage(result: dict[str, Any], console: Console) -> None:
             _pct(t["unique_session_share"]["transitions"]),
         )
     console.print(tests)
+    redundant = result.get("redundant") or []
+    if redundant:
+        console.print(
+            f"[bold]Redundant[/]: {len(redundant)} test(s) exercise no transition the rest of the suite does not "
+            "(candidates to merge, not to delete): "
+            + "; ".join(
+                f"{r['test_id']} (also in {', '.join(r['also_exercised_by']) or 'none'})" for r in redundant[:10]
+            )
+        )
     divergence = result.get("representativeness")
     if divergence:
         console.print(
