@@ -110,6 +110,12 @@ def _group_of(row: dict[str, Any]) -> str:
 
 
 def _evidence_lines(row: dict[str, Any]) -> list[str]:
+    if row.get("kind") == "sampled":
+        return [
+            f"Scenario {int(row['scenario'])}, a usage-sampled session: {' > '.join(row['path'])}",
+            f"Why: {row['reason']}; probability of this exact walk {row['probability']:.2e}",
+            f"Adds {100 * row['gain_share']:.2f} % of the plan objective (field occurrences of untested items)",
+        ]
     failing = row.get("failing_step")
     where = (
         f"; {failing} fails most, {row['error_lift']:.1f}× its rate elsewhere"
@@ -244,12 +250,21 @@ def _gherkin_files(plan: dict[str, Any], phrases: dict[str, str], earlier_map: s
         phrase_of[event] = phrase
     files = {}
     for group, rows in sorted(groups.items()):
-        lines = [
-            f"Feature: Journeys ending in {group.replace('_', ' ')} that no test exercised",
-            "  Candidate scenarios from gapfinder, most worth a test first. Each is the most probable",
-            "  complete session through an untested path; its comments carry the evidence. Remove a",
-            "  scenario's @pending tag when its steps are implemented: then it counts as coverage.",
-        ]
+        lines = (
+            [
+                f"Feature: Usage-sampled journeys ending in {group.replace('_', ' ')}",
+                "  Scenarios from gapfinder, drawn as random walks of the usage chain, most drawn first,",
+                "  so that the suite steps as users do; its comments carry the evidence. Remove a",
+                "  scenario's @pending tag when its steps are implemented: then it counts as coverage.",
+            ]
+            if plan.get("kind") == "sampled"
+            else [
+                f"Feature: Journeys ending in {group.replace('_', ' ')} that no test exercised",
+                "  Candidate scenarios from gapfinder, most worth a test first. Each is the most probable",
+                "  complete session through an untested path; its comments carry the evidence. Remove a",
+                "  scenario's @pending tag when its steps are implemented: then it counts as coverage.",
+            ]
+        )
         for row in rows:
             lines.append("")
             lines += [f"  # {gherkin_text(line)}" for line in _evidence_lines(row)]

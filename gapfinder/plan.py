@@ -78,8 +78,12 @@ class PlanOptions:
     candidates: int = 30
     min_users: int = 5
     tz: str | None = None  # for the gaps' trends: the time zone whose midnights cut days
+    sample: int = 0  # > 0: that many scenarios drawn as random walks of the usage chain instead
+    seed: int = 1
 
     def __post_init__(self) -> None:
+        if self.sample < 0:
+            raise ConfigError(f"--sample {self.sample}: give 1 or more scenarios to draw")
         if self.budget < 1:
             raise ConfigError(f"--budget {self.budget}: give 1 or more")
         if self.cost not in COSTS:
@@ -278,6 +282,8 @@ def make_plan(
     options = options or PlanOptions()
     tests = load_test_paths(ws)
     items = load_field_items(ws)
+    if options.sample:
+        return _sampled_plan(ws, options, tests, items, began)
     if options.objective == "patterns" and not items.patterns:
         raise ConfigError("--objective patterns: no mined patterns yet; run `gapfinder paths --kind patterns` first")
     if gaps is None:
@@ -392,6 +398,80 @@ def make_plan(
     return plan
 
 
+def _sampled_plan(
+    ws: Workspace, options: PlanOptions, tests: TestPaths, items: FieldItems, began: tuple[Any, float]
+) -> dict[str, Any]:
+    """A plan of usage-sampled scenarios: ``options.sample`` random walks of the usage chain, each
+    distinct walk once with how often it was drawn, most drawn first; what each adds to the objective
+    beyond the suite and the walks before it."""
+    from gapfinder.sampling import sample_walks
+    from gapfinder.usage_profile import load_usage_model
+
+    model = load_usage_model(ws.con)
+    ids = {name: i for i, name in enumerate(feature_names(ws.con))}
+    sampled = sample_walks(model, options.sample, seed=options.seed)
+    distinct = [(list(walk), drawn) for walk, drawn in sampled.distinct() if walk]
+    framed = [[0, *(ids[s] for s in walk), 1] for walk, _ in distinct]
+    sets, weights = _objective_items(items, options.objective, framed)
+    suite_sets, _ = _objective_items(items, options.objective, tests.framed)
+    covered = set().union(*suite_sets) if suite_sets else set()
+    objective_total = sum(weights.values())
+    rows, total_gain = [], 0.0
+    for n, ((walk, drawn), exercised) in enumerate(zip(distinct, sets, strict=True), start=1):
+        new = exercised - covered
+        gain = sum(weights[i] for i in new)
+        covered |= new
+        total_gain += gain
+        probability = math.prod(model.G[a][b]["probability"] for a, b in itertools.pairwise([START, *walk, END]))
+        rows.append(
+            {
+                "scenario": n,
+                "kind": "sampled",
+                "name": _scenario_name(walk),
+                "path": walk,
+                "steps": len(walk),
+                "probability": probability,
+                "drawn": drawn,
+                "gain": gain,
+                "gain_share": gain / objective_total if objective_total else 0.0,
+                "gaps": [],
+                "gap_path": walk,
+                "share": drawn / options.sample,
+                "reason": f"drawn {drawn} of {options.sample} times from the usage chain (seed {options.seed})",
+            }
+        )
+    before = compute_coverage(tests, items, per_test=False)["metrics"]
+    extended = TestPaths([*tests.test_ids, *(f"sample_{n}" for n in range(len(framed)))], [*tests.framed, *framed])
+    after = compute_coverage(extended, items, per_test=False)["metrics"]
+    plan: dict[str, Any] = {
+        "workspace": str(ws.path),
+        "kind": "sampled",
+        "sample": options.sample,
+        "seed": options.seed,
+        "truncated_walks": sampled.truncated,
+        "budget": options.sample,
+        "cost": "tests",
+        "objective": options.objective,
+        "candidates": len(distinct),
+        "unreachable_gaps": 0,
+        "scenarios": rows,
+        "gain": total_gain,
+        "gain_share": total_gain / objective_total if objective_total else 0.0,
+        "guarantee": (
+            "statistical usage testing: the walks' transition frequencies converge to the users' as the sample grows"
+        ),
+        "method": "random walks of the usage chain",
+        "coverage": {
+            metric: {"before": before[metric]["strict"]["by_sessions"], "after": after[metric]["strict"]["by_sessions"]}
+            for metric in before
+            if metric != "patterns" or items.patterns
+        },
+        "gap_decisions": [],
+    }
+    _store(ws, plan, options, began)
+    return plan
+
+
 def _gap_decisions(
     gaps: list[dict[str, Any]],
     scenarios: list[dict[str, Any]],
@@ -473,7 +553,13 @@ def _store(ws: Workspace, plan: dict[str, Any], options: PlanOptions, began: tup
         began=began,
         stage="plan",
         inputs=[str(ws.path)],
-        parameters={"budget": options.budget, "cost": options.cost, "objective": options.objective},
+        parameters={
+            "budget": options.budget,
+            "cost": options.cost,
+            "objective": options.objective,
+            "sample": options.sample,
+            "seed": options.seed,
+        },
         row_counts={"scenarios": frame.num_rows, "candidates": plan["candidates"]},
     )
     summary = {k: v for k, v in plan.items() if k != "scenarios"}

@@ -614,6 +614,13 @@ def unused(workspace: str, max_share: float, max_gap: int, min_users: int, outpu
     type=click.IntRange(min=1),
     help="Top gaps turned into candidate scenarios.",
 )
+@click.option(
+    "--sample",
+    type=click.IntRange(min=1),
+    help="Instead: draw this many complete scenarios as random walks of the usage chain (statistical usage "
+    "testing); each distinct walk is listed once with how often it was drawn.",
+)
+@click.option("--seed", default=1, show_default=True, type=int, help="Random seed of --sample.")
 @min_users_option("gaps")
 @tz_option
 @output_options
@@ -623,6 +630,8 @@ def plan(
     cost: str,
     objective: str,
     candidates: int,
+    sample: int | None,
+    seed: int,
     min_users: int,
     tz: str | None,
     output_format: str,
@@ -637,11 +646,20 @@ def plan(
     from gapfinder.workspace import Workspace
 
     options = PlanOptions(
-        budget=budget, cost=cost, objective=objective, candidates=candidates, min_users=min_users, tz=tz
+        budget=budget,
+        cost=cost,
+        objective=objective,
+        candidates=candidates,
+        min_users=min_users,
+        tz=tz,
+        sample=sample or 0,
+        seed=seed,
     )
     with Workspace(workspace, read_only=not os.path.exists(workspace)) as ws:
         result = make_plan(ws, options)
     columns = ["scenario", "path", "steps", "gain", "gain_share", "gaps", "sessions", "users", "share", "reason"]
+    if sample:
+        columns = ["scenario", "path", "steps", "drawn", "probability", "gain", "gain_share", "share", "reason"]
     _emit_result(
         result,
         output_format,

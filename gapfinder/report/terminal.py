@@ -509,14 +509,21 @@ def render_plan(result: dict[str, Any], console: Console) -> None:
         ("gaps", "left"),
         ("sessions", "right"),
     )
+    sampled = result.get("kind") == "sampled"
+    if sampled:
+        table.title = (
+            f"Plan: {len(result['scenarios'])} distinct scenario(s) among {result['sample']} walks of the usage chain "
+            f"(seed {result['seed']})"
+        )
+        table.columns[4].header, table.columns[5].header = "drawn", "walk probability"
     for r in result["scenarios"]:
         table.add_row(
             str(r["scenario"]),
             format_path(r["path"]),
             str(r["steps"]),
             _pct(r["gain_share"]),
-            ", ".join(f"#{g}" for g in r["gaps"]),
-            f"{r['sessions']:,}",
+            str(r["drawn"]) if sampled else ", ".join(f"#{g}" for g in r["gaps"]),
+            f"{r['probability']:.2e}" if sampled else f"{r['sessions']:,}",
         )
     table.caption = (
         f"objective: untested {result['objective']} (field occurrences) · plan adds {_pct(result['gain_share'])} · "

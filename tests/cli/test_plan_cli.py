@@ -125,3 +125,27 @@ def test_run_takes_the_stages_options_and_keeps_implemented_steps(tmp_path: Path
     again = invoke(*args, "--budget", "4")
     assert again.exit_code == 0, again.output
     assert registry.read_text().startswith(implemented)
+
+
+def test_plan_sample_draws_walks_of_the_usage_chain_and_exports_them(ws: str, tmp_path: Path) -> None:
+    assert invoke("suite", str(SAMPLE / "tests" / "suite_traces.csv"), "-w", ws).exit_code == 0
+    result = invoke("plan", "-w", ws, "--sample", "300", "--seed", "3", "--format", "json")
+    assert result.exit_code == 0, result.output
+    data = json.loads(result.stdout)
+    assert data["kind"] == "sampled" and data["sample"] == 300
+    drawn = [s["drawn"] for s in data["scenarios"]]
+    assert drawn == sorted(drawn, reverse=True) and sum(drawn) <= 300
+    assert len({tuple(s["path"]) for s in data["scenarios"]}) == len(data["scenarios"])
+    again = json.loads(invoke("plan", "-w", ws, "--sample", "300", "--seed", "3", "--format", "json").stdout)
+    assert [s["path"] for s in again["scenarios"]] == [s["path"] for s in data["scenarios"]]
+    other = json.loads(invoke("plan", "-w", ws, "--sample", "300", "--seed", "4", "--format", "json").stdout)
+    assert [s["path"] for s in other["scenarios"]] != [s["path"] for s in data["scenarios"]]
+    table = invoke("plan", "-w", ws, "--sample", "50")
+    assert table.exit_code == 0 and "walks of the usage chain" in table.stdout
+    for as_format in ("pytest", "gherkin"):
+        out = tmp_path / as_format
+        exported = invoke("export", "-w", ws, "--to", str(out), "--as", as_format)
+        assert exported.exit_code == 0, exported.output
+    for module in (tmp_path / "pytest").glob("*.py"):
+        compile(module.read_text(), str(module), "exec")
+    assert "usage-sampled session" in "".join(p.read_text() for p in (tmp_path / "gherkin").glob("*.feature"))
