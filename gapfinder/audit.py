@@ -34,8 +34,10 @@ from gapfinder.paths import feature_names
 from gapfinder.patterns import profile_included_automated
 from gapfinder.periods import Period, midnight, split_in_halves, time_zone
 from gapfinder.privacy import DEFAULT_MIN_USERS
+from gapfinder.representativeness import discriminant, suite_transition_counts
 from gapfinder.sql import fetch_arrow, fetch_dicts
 from gapfinder.stats import difference_interval, jensen_shannon_distance, two_proportion_z_test
+from gapfinder.usage_model import UsageModel
 from gapfinder.workspace import Workspace
 
 __all__ = ["AuditOptions", "Period", "audit", "parse_period"]
@@ -241,12 +243,12 @@ def _journey_sessions(
 
 def _grouped_coverage(
     ws: Workspace, query: str, group: str, exercised_t: set, **params: Any
-) -> dict[Any, dict[str, int]]:
+) -> dict[Any, dict[str, Any]]:
     """Per group (bucket or segment value) of ``query``'s rows: transition occurrences, the part
-    the suite exercises, and the group's sessions and users."""
+    the suite exercises, the group's sessions and users, and its transitions by name (``edges``)."""
     names = feature_names(ws.con)
     rows = fetch_dicts(ws.con, query, include_automated=profile_included_automated(ws.con), **params)
-    groups: dict[Any, dict[str, int]] = {}
+    groups: dict[Any, dict[str, Any]] = {}
     for r in rows:
         g = groups.setdefault(
             r[group],
@@ -257,8 +259,10 @@ def _grouped_coverage(
                 "hit": 0,
                 "sess": 0,
                 "sess_hit": 0,
+                "edges": [],
             },
         )
+        g["edges"].append((names[r["a"]], names[r["b"]], int(r["occurrences"])))
         g["occ"] += r["occurrences"]
         g["sess"] += r["sessions"]
         if (names[r["a"]], names[r["b"]]) in exercised_t:
@@ -267,7 +271,19 @@ def _grouped_coverage(
     return groups
 
 
-def _trend(ws: Workspace, period: Period, unit: str, exercised_t: set) -> list[dict[str, Any]]:
+def _divergence(transitions: Any, suite_counts: dict[tuple[str, str], int]) -> float | None:
+    """The Whittaker-Thomason discriminant of the suite against one period's usage chain (bits per
+    step); None without transitions. ``transitions`` maps (a, b) to (occurrences, ...) or is a list
+    of (a, b, occurrences)."""
+    edges = [(a, b, v[0]) for (a, b), v in transitions.items()] if isinstance(transitions, dict) else list(transitions)
+    if not edges:
+        return None
+    return discriminant(UsageModel.from_transitions(edges), suite_counts).bits_per_step
+
+
+def _trend(
+    ws: Workspace, period: Period, unit: str, exercised_t: set, suite_counts: dict[tuple[str, str], int]
+) -> list[dict[str, Any]]:
     buckets = _grouped_coverage(
         ws, "list_bucket_transitions", "bucket", exercised_t, unit=unit, start=period.start, end=period.end
     )
@@ -277,6 +293,7 @@ def _trend(ws: Workspace, period: Period, unit: str, exercised_t: set) -> list[d
             "sessions": b["sessions"],
             "transitions_by_sessions": b["sess_hit"] / b["sess"] if b["sess"] else None,
             "transitions_by_occurrences": b["hit"] / b["occ"] if b["occ"] else None,
+            "divergence": _divergence(b["edges"], suite_counts),
         }
         for bucket, b in sorted(buckets.items())
     ]
@@ -304,6 +321,7 @@ def audit(ws: Workspace, options: AuditOptions | None = None) -> dict[str, Any]:
     options = options or AuditOptions()
     ws.require("sessions", "features", hint="run `gapfinder profile TELEMETRY -w ...` first")
     exercised_f, exercised_t, journeys = _exercised(ws)
+    suite_counts = suite_transition_counts(ws)
     if options.against_workspace:
         current_period = options.period or Period(None, None, str(ws.path))
         with Workspace(options.against_workspace, read_only=True) as other:
@@ -351,7 +369,11 @@ def audit(ws: Workspace, options: AuditOptions | None = None) -> dict[str, Any]:
             "previous": _coverage(before, exercised_f, exercised_t),
             "current": _coverage(now, exercised_f, exercised_t),
         },
-        "trend": _trend(ws, Period(None, None, "all"), options.trend, exercised_t),
+        "divergence": {
+            "previous": _divergence(before.transitions, suite_counts),
+            "current": _divergence(now.transitions, suite_counts),
+        },
+        "trend": _trend(ws, Period(None, None, "all"), options.trend, exercised_t, suite_counts),
         "trend_unit": options.trend,
         "irrelevant_tests": irrelevant,
         "held_back": moves["held_back"],

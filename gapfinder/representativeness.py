@@ -31,7 +31,14 @@ import numpy as np
 from gapfinder.usage_model import END, START, UsageModel, stationary_distribution
 from gapfinder.workspace import Workspace
 
-__all__ = ["Discriminant", "describe_discriminant", "discriminant", "suite_discriminant", "suite_transitions"]
+__all__ = [
+    "Discriminant",
+    "describe_discriminant",
+    "discriminant",
+    "suite_discriminant",
+    "suite_transition_counts",
+    "suite_transitions",
+]
 
 
 @dataclass(frozen=True)
@@ -86,16 +93,21 @@ def suite_transitions(paths: Iterable[Sequence[str | None]]) -> dict[tuple[str, 
     return counts
 
 
-def suite_discriminant(ws: Workspace, *, prior: float = 1.0) -> Discriminant:
-    """The discriminant of the workspace's stored suite against its usage model."""
+def suite_transition_counts(ws: Workspace) -> dict[tuple[str, str], int]:
+    """Transition counts of the workspace's stored suite (the tests that count), by event name."""
     from gapfinder.coverage import load_test_paths
     from gapfinder.paths import feature_names
-    from gapfinder.usage_profile import load_usage_model
 
     names = feature_names(ws.con)
     tests = load_test_paths(ws)
-    paths = [[names[i] if 0 <= i < len(names) else None for i in framed] for framed in tests.framed]
-    return discriminant(load_usage_model(ws.con), suite_transitions(paths), prior=prior)
+    return suite_transitions([[names[i] if 0 <= i < len(names) else None for i in framed] for framed in tests.framed])
+
+
+def suite_discriminant(ws: Workspace, *, prior: float = 1.0) -> Discriminant:
+    """The discriminant of the workspace's stored suite against its usage model."""
+    from gapfinder.usage_profile import load_usage_model
+
+    return discriminant(load_usage_model(ws.con), suite_transition_counts(ws), prior=prior)
 
 
 def discriminant(usage: UsageModel, tests: dict[tuple[str, str], int], *, prior: float = 1.0) -> Discriminant:

@@ -107,8 +107,20 @@ def nice_ticks(low: float, high: float, *, most: int = 6) -> list[float]:
     return [0.0, 0.25, 0.5, 0.75, 1.0]
 
 
-def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
-    points = [(t["bucket"], t["transitions_by_sessions"]) for t in trend if t["transitions_by_sessions"] is not None]
+def _bits(v: float, _digits: int = 0) -> str:
+    """Bits per step, always to three decimals (the percent digits the chart passes do not apply)."""
+    return f"{v:.3f}"
+
+
+def _trend_chart(
+    trend: list[dict[str, Any]],
+    unit: str,
+    key: str = "transitions_by_sessions",
+    label: str = "Transition coverage",
+    fmt: Any = None,
+) -> str:
+    fmt = fmt or _pct
+    points = [(t["bucket"], t[key]) for t in trend if t.get(key) is not None]
     if len(points) < 2:
         return '<p class="note">Not enough periods for a trend yet.</p>'
     width, height, left, right, top, bottom = 760, 230, 56, 48, 16, 40
@@ -125,13 +137,13 @@ def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
 
     out = [
         f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" role="img" '
-        f'aria-label="Transition coverage by {html_text(unit)}">'
+        f'aria-label="{html_text(label)} by {html_text(unit)}">'
     ]
     digits = 0 if all(abs(t * 100 - round(t * 100)) < 1e-9 for t in ticks) else 1
     for v in ticks:
         out.append(f'<line x1="{left}" x2="{width - right}" y1="{y(v):.1f}" y2="{y(v):.1f}" stroke="{RULE}"/>')
         out.append(
-            f'<text x="{left - 8}" y="{y(v) + 4:.1f}" font-size="11" fill="{MUTED}" text-anchor="end">{_pct(v, digits)}</text>'
+            f'<text x="{left - 8}" y="{y(v) + 4:.1f}" font-size="11" fill="{MUTED}" text-anchor="end">{fmt(v, digits)}</text>'
         )
     line = " ".join(f"{x(i):.1f},{y(v):.1f}" for i, (_, v) in enumerate(points))
     out.append(f'<polyline points="{line}" fill="none" stroke="{TEAL}" stroke-width="2.5"/>')
@@ -141,7 +153,7 @@ def _trend_chart(trend: list[dict[str, Any]], unit: str) -> str:
             f'<text x="{x(i):.1f}" y="{height - 18}" font-size="11" fill="{MUTED}" text-anchor="middle">{html_text(bucket)}</text>'
         )
         out.append(
-            f'<text x="{x(i):.1f}" y="{y(v) - 9:.1f}" font-size="11" fill="{SLATE}" text-anchor="middle">{_pct(v)}</text>'
+            f'<text x="{x(i):.1f}" y="{y(v) - 9:.1f}" font-size="11" fill="{SLATE}" text-anchor="middle">{fmt(v)}</text>'
         )
     out.append("</svg>")
     return "".join(out)
@@ -375,7 +387,18 @@ def render_html(data: dict[str, Any]) -> str:
         _trend_chart(data["drift"]["trend"], data["drift"]["trend_unit"]),
         '<p class="note">Transition coverage by sessions (as everywhere in this report): of the transitions the '
         "period's sessions take, the share the current suite exercises, each weighted by the sessions that take "
-        "it.</p></section>",
+        "it.</p>",
+        f"<h3>How far the tests step from the users, by {html_text(data['drift']['trend_unit'])}</h3>",
+        _trend_chart(
+            data["drift"]["trend"],
+            data["drift"]["trend_unit"],
+            "divergence",
+            "Divergence of the tests from usage",
+            _bits,
+        ),
+        '<p class="note">The Whittaker-Thomason discriminant of the suite against each period\'s usage chain, in bits '
+        "per step: 0 when the tests step exactly as that period's users do; lower is better. One bit means the "
+        "users' sessions are, step for step, twice as likely under their own chain as under the tests'.</p></section>",
         "<section><h2>Where people go and the tests do not</h2>",
         _diagram(data["diagram"]),
         "</section>",

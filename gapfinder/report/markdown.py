@@ -128,10 +128,14 @@ def render_markdown(data: dict[str, Any]) -> str:
         "",
         f"## Coverage by {drift['trend_unit']}",
         "",
-        "| from | sessions | transitions exercised, by sessions |",
-        "|---|---|---|",
+        "| from | sessions | transitions exercised, by sessions | divergence of the tests (bits per step) |",
+        "|---|---|---|---|",
     ]
-    lines += [f"| {t['bucket']} | {t['sessions']:,} | {_pct(t['transitions_by_sessions'])} |" for t in drift["trend"]]
+    lines += [
+        f"| {t['bucket']} | {t['sessions']:,} | {_pct(t['transitions_by_sessions'])} | "
+        f"{'—' if t.get('divergence') is None else format(t['divergence'], '.3f')} |"
+        for t in drift["trend"]
+    ]
     lines += [
         "",
         "## Untested paths most worth a test",

@@ -558,6 +558,12 @@ def render_audit(result: dict[str, Any], console: Console) -> None:
             f"Jensen–Shannon distance (0 same, 1 disjoint): features {distance['features']:.3f}, "
             f"transitions {distance['transitions']:.3f}"
         )
+    divergence = result.get("divergence") or {}
+    if divergence.get("current") is not None and divergence.get("previous") is not None:
+        console.print(
+            f"Divergence of the tests from usage (Whittaker-Thomason, bits per step; 0 = the tests step as users do): "
+            f"{divergence['previous']:.3f} then, {divergence['current']:.3f} now"
+        )
     movers = _table(
         "Moved most (share of sessions)",
         ("path", "left"),

@@ -25,7 +25,11 @@ def test_audit_json_and_table(ws: str) -> None:
     args = ["audit", "-w", ws, "--period", "2026-04-01..2026-06-30", "--against", "2026-01-01..2026-03-31"]
     result = invoke(*args, "--format", "json")
     assert result.exit_code == 0, result.output
-    assert json.loads(result.stdout)["movers"][0]["path"][0] == "join_waitlist"
+    data = json.loads(result.stdout)
+    assert data["movers"][0]["path"][0] == "join_waitlist"
+    # the suite's divergence from each period's usage chain, and per month of the trend
+    assert 0 < data["divergence"]["current"] < 5 and 0 < data["divergence"]["previous"] < 5
+    assert len(data["trend"]) >= 2 and all(t["divergence"] > 0 for t in data["trend"])
     table = invoke(*args, "--by", "app_version")
     assert table.exit_code == 0 and "Moved most" in table.stdout and "coverage by segment" in table.stdout
 
