@@ -153,7 +153,9 @@ def _trend_chart(
             f'<text x="{x(i):.1f}" y="{height - 18}" font-size="11" fill="{MUTED}" text-anchor="middle">{html_text(bucket)}</text>'
         )
         out.append(
-            f'<text x="{x(i):.1f}" y="{y(v) - 9:.1f}" font-size="11" fill="{SLATE}" text-anchor="middle">{fmt(v)}</text>'
+            # the first and last labels lean inwards, clear of the axis labels and the edge
+            f'<text x="{x(i) + (-4 if i == 0 else 4 if i == len(points) - 1 else 0):.1f}" y="{y(v) - 9:.1f}" font-size="11" '
+            f'fill="{SLATE}" text-anchor="{"start" if i == 0 else "end" if i == len(points) - 1 else "middle"}">{fmt(v)}</text>'
         )
     out.append("</svg>")
     return "".join(out)
