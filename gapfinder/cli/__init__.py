@@ -926,7 +926,7 @@ def _render_summary(summary: dict[str, Any], output_format: str) -> None:
 
 
 # Command groups in their own modules register themselves on `cli` when imported.
-from gapfinder.cli import effort_command, run_command, suite_commands  # noqa: E402, F401
+from gapfinder.cli import effort_command, families_command, run_command, suite_commands  # noqa: E402, F401
 
 
 def main() -> None:

@@ -1,6 +1,7 @@
 """Presentation: terminal tables (rich), one self-contained HTML page, and Markdown."""
 
 from gapfinder.report.effort_table import render_effort
+from gapfinder.report.families_table import render_families
 from gapfinder.report.html import render_html
 from gapfinder.report.markdown import render_markdown
 from gapfinder.report.terminal import (
@@ -21,6 +22,7 @@ __all__ = [
     "render_audit",
     "render_coverage",
     "render_effort",
+    "render_families",
     "render_gaps",
     "render_html",
     "render_markdown",

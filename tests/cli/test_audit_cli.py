@@ -80,6 +80,20 @@ def test_effort_lists_features_by_the_gap_between_effort_and_usage(ws: str) -> N
     assert invoke("effort", "-w", ws, "--critical", "pay=x").exit_code == 2
 
 
+def test_families_lists_named_families_above_the_floor(ws: str) -> None:
+    with_suite(ws)
+    result = invoke("families", "-w", ws, "--format", "json")
+    assert result.exit_code == 0, result.output
+    data = json.loads(result.stdout)
+    assert len(data["families"]) >= 5
+    top = data["families"][0]
+    assert top["name"] == " › ".join(top["typical_path"]) and top["session_share"] > 0.1
+    assert all(f["users"] >= data["min_users"] for f in data["families"])
+    table = invoke("families", "-w", ws)
+    assert table.exit_code == 0 and "Journey families" in table.stdout
+    assert invoke("families", "-w", ws, "--min-paths", "1").exit_code == 2
+
+
 def test_report_writes_html_and_markdown(ws: str, tmp_path: Path) -> None:
     with_suite(ws)
     html, md = tmp_path / "coverage.html", tmp_path / "coverage.md"
