@@ -98,13 +98,19 @@ def _layers(edges: list[dict[str, Any]]) -> dict[str, int]:
 
 
 def report_data(ws: Workspace, *, top: int = 10, min_users: int = 5, tz: str | None = None) -> dict[str, Any]:
-    """Profile, coverage, gaps, plan (when one is stored), drift and the path diagram."""
+    """Profile, coverage, gaps, plan (when one is stored), drift, effort against usage, journey
+    families and the path diagram."""
     ws.require("suite_tests", hint="run `gapfinder suite TRACES... -w ...` first")
     profile = summarize_profile(ws, top=5, min_users=min_users)
     coverage = compute_coverage_report(ws)
     gaps = find_gaps(ws, GapOptions(top=top, min_users=min_users, tz=tz))
     plan = load_plan(ws) if ws.has_table("plan_scenarios") else None
     drift = audit(ws, AuditOptions(top=8, min_users=min_users, tz=tz))
+    from gapfinder.effort import EffortOptions, effort_report
+    from gapfinder.families import FamilyOptions, journey_families
+
+    effort = effort_report(ws, EffortOptions(min_users=min_users))
+    families = journey_families(ws, FamilyOptions(min_users=min_users))
     return {
         "version": __version__,
         "workspace": str(ws.path),
@@ -113,5 +119,7 @@ def report_data(ws: Workspace, *, top: int = 10, min_users: int = 5, tz: str | N
         "gaps": gaps,
         "plan": plan,
         "drift": drift,
+        "effort": effort,
+        "families": families,
         "diagram": path_diagram(ws, min_users=min_users, required=[g["path"] for g in gaps["gaps"]]),
     }

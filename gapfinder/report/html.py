@@ -359,6 +359,55 @@ def _drift_section(drift: dict[str, Any]) -> str:
     return "".join(out)
 
 
+def _quarter_section(data: dict[str, Any]) -> str:
+    """Representativeness as one number, where effort and usage disagree most, the journey families."""
+    divergence = data["coverage"].get("representativeness") or {}
+    out = []
+    if divergence:
+        out.append(
+            f'<div class="cards"><div class="card"><div class="metric">representativeness</div>'
+            f'<div class="big">{divergence["bits_per_step"]:.3f}</div><div class="small">bits per step between how '
+            f"the tests step and how users step (0: alike; Whittaker-Thomason) · {divergence['arcs_tested']:,} of "
+            f"{divergence['usage_arcs']:,} transitions users take walked by a test</div></div></div>"
+        )
+    rows = data["effort"]["features"][:6]
+    if rows:
+        out.append(
+            "<h3>Where test effort and usage disagree most</h3><table><thead><tr><th>feature</th>"
+            '<th class="num">share of usage</th><th class="num">share of test steps</th><th>verdict</th>'
+            '<th class="num">recommended tests</th><th class="num">today</th></tr></thead><tbody>'
+        )
+        for r in rows:
+            out.append(
+                f'<tr><td>{html_text(r["event"])}</td><td class="num">{_pct(r["usage_share"])}</td>'
+                f'<td class="num">{_pct(r["step_share"])}</td><td>{html_text(r["verdict"])}</td>'
+                f'<td class="num">{r["recommended_tests"]}</td><td class="num">{r["today_tests"]}</td></tr>'
+            )
+        out.append(
+            '</tbody></table><p class="note">Share of usage: the feature\'s share of all field feature '
+            "occurrences (its operational-profile probability); over- or under-tested when the 95 % interval of "
+            "the difference excludes 0. Recommended: the same number of tests allocated in proportion to usage; "
+            "today: the suite's steps shared out over that number.</p>"
+        )
+    families = data["families"]["families"][:8]
+    if families:
+        out.append(
+            "<h3>The users' journey families</h3><table><thead><tr><th>family (its most taken path)</th>"
+            '<th class="num">sessions</th><th class="num">users</th><th class="num">transitions tested</th>'
+            "<th>most taken untested transition</th></tr></thead><tbody>"
+        )
+        for f in families:
+            tested = f["transitions_exercised_by_occurrences"]
+            untested = f["top_untested"][0]["transition"] if f["top_untested"] else None
+            out.append(
+                f"<tr><td>{html_text(f['name'] or '(under the privacy floor)')}</td>"
+                f'<td class="num">{_pct(f["session_share"])}</td><td class="num">{_pct(f["user_share"])}</td>'
+                f'<td class="num">{_pct(tested)}</td><td>{_path(untested) if untested else "—"}</td></tr>'
+            )
+        out.append(f'</tbody></table><p class="note">{html_text(data["families"]["method"])}.</p>')
+    return "".join(out)
+
+
 def render_html(data: dict[str, Any]) -> str:
     """The report page for ``report_data(...)``."""
     profile, coverage = data["profile"], data["coverage"]
@@ -401,6 +450,9 @@ def render_html(data: dict[str, Any]) -> str:
         '<p class="note">The Whittaker-Thomason discriminant of the suite against each period\'s usage chain, in bits '
         "per step: 0 when the tests step exactly as that period's users do; lower is better. One bit means the "
         "users' sessions are, step for step, twice as likely under their own chain as under the tests'.</p></section>",
+        "<section><h2>Is test effort where the users are?</h2>",
+        _quarter_section(data),
+        "</section>",
         "<section><h2>Where people go and the tests do not</h2>",
         _diagram(data["diagram"]),
         "</section>",

@@ -98,6 +98,45 @@ def decision_of(plan: dict[str, Any] | None, rank: int, path: list[str]) -> str:
     return ""
 
 
+def quarter_lines(data: dict[str, Any]) -> list[str]:
+    """Representativeness as one number, where effort and usage disagree most, the journey families."""
+    lines: list[str] = ["", "## Is test effort where the users are?", ""]
+    divergence = data["coverage"].get("representativeness") or {}
+    if divergence:
+        lines.append(
+            f"Representativeness: **{divergence['bits_per_step']:.3f} bits per step** between how the tests step "
+            f"and how users step (Whittaker-Thomason discriminant; 0 means alike); {divergence['arcs_tested']:,} of "
+            f"{divergence['usage_arcs']:,} transitions users take are walked by a test."
+        )
+    rows = data["effort"]["features"][:6]
+    if rows:
+        lines += [
+            "",
+            "| feature | share of usage | share of test steps | verdict | recommended tests | today |",
+            "|---|---|---|---|---|---|",
+        ]
+        lines += [
+            f"| {r['event']} | {_pct(r['usage_share'])} | {_pct(r['step_share'])} | {r['verdict']} | "
+            f"{r['recommended_tests']} | {r['today_tests']} |"
+            for r in rows
+        ]
+    families = data["families"]["families"][:8]
+    if families:
+        lines += [
+            "",
+            "| journey family (its most taken path) | sessions | users | transitions tested | most taken untested |",
+            "|---|---|---|---|---|",
+        ]
+        for f in families:
+            untested = f["top_untested"][0]["transition"] if f["top_untested"] else None
+            lines.append(
+                f"| {_path(f['typical_path']) if f['typical_path'] else '(under the privacy floor)'} | "
+                f"{_pct(f['session_share'])} | {_pct(f['user_share'])} | "
+                f"{_pct(f['transitions_exercised_by_occurrences'])} | {_path(untested) if untested else '—'} |"
+            )
+    return lines
+
+
 def render_markdown(data: dict[str, Any]) -> str:
     """The report page for ``report_data(...)`` in Markdown."""
     profile, coverage, gaps, plan, drift = (data[k] for k in ("profile", "coverage", "gaps", "plan", "drift"))
@@ -124,6 +163,7 @@ def render_markdown(data: dict[str, Any]) -> str:
             f"| {metric} | {_pct(v['by_sessions'])} | {_pct(v['by_occurrences'])} | "
             f"{_pct(v['unweighted'])} ({v['exercised']:,} of {v['items']:,}) |"
         )
+    lines += quarter_lines(data)
     lines += [
         "",
         f"## Coverage by {drift['trend_unit']}",
