@@ -71,6 +71,13 @@ def _plan_ws(ws: str) -> str:
 
 
 CASES: dict[str, Case] = {
+    # --- effort, families, plan --sample, check --max-divergence ---
+    "effort-critical-unknown-feature": lambda f, w: ["effort", "-w", w, "--critical", "no_such_feature=2"],
+    "effort-critical-not-a-number": lambda f, w: ["effort", "-w", w, "--critical", "login=many"],
+    "effort-minimums-above-the-suite": lambda f, w: ["effort", "-w", w, "--tests", "2", "--critical", "login=5"],
+    "families-min-paths-one": lambda f, w: ["families", "-w", w, "--min-paths", "1"],
+    "plan-sample-zero": lambda f, w: ["plan", "-w", w, "--sample", "0"],
+    "check-max-divergence-negative": lambda f, w: ["check", "-w", w, "--max-divergence", "-0.5"],
     # --- the Spark engine's options (refused before Spark starts) ---
     "spark-master-without-engine": lambda f, w: [
         "profile",
