@@ -79,3 +79,20 @@ def synthetic_telemetry(path: Path, events: int, *, seed: int = 1) -> Path:
     path.parent.mkdir(parents=True, exist_ok=True)
     pq.write_table(table, path)
     return path
+
+
+def synthetic_suite(path: Path, tests: int = 40, *, seed: int = 2) -> Path:
+    """A suite of ``tests`` test traces (test_id, step_no, event) walking the same synthetic chain,
+    for the stage benchmarks on the high-entropy shape."""
+    import csv
+
+    db = synthetic_sessions(tests, seed=seed)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    with path.open("w", newline="") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["test_id", "step_no", "event"])
+        for t in range(tests):
+            steps = db.items[db.starts[t] : db.starts[t + 1]].tolist()
+            for n, item in enumerate(steps, start=1):
+                writer.writerow([f"test_{t:03d}", n, f"feature_{item:03d}"])
+    return path

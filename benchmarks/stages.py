@@ -1,5 +1,9 @@
 """Benchmark of the stages after profile — suite, patterns, coverage, gaps, plan, audit, report — on demo data.
 
+``--shape entropy`` uses telemetry shaped like a large product instead (benchmarks/_synthetic.py:
+200 features, Zipf-like popularity, Markov-like transitions, ~20 events a session, almost every path
+distinct) with a suite of 40 tests walking the same chain.
+
 For each size: generate demo telemetry, profile it once, then alternate runs of a floor and of each
 stage, every one in a fresh process, and print medians of wall time, peak memory, the ratio to
 the floor and the scaling between the smallest and largest size. The floor is one bare DuckDB
@@ -40,6 +44,7 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--sizes", type=int, nargs="+", default=[1_000_000, 10_000_000])
     parser.add_argument("--runs", type=int, default=3)
+    parser.add_argument("--shape", choices=["demo", "entropy"], default="demo")
     args = parser.parse_args()
     gapfinder = shutil.which("gapfinder") or sys.exit("install gapfinder first (pip install -e .)")
     medians: dict[str, dict[int, float]] = {}
@@ -47,11 +52,17 @@ def main() -> None:
         for size in args.sizes:
             demo = Path(tmp) / f"demo{size}"
             ws = str(Path(tmp) / f"ws{size}.duckdb")
-            subprocess.run(
-                [gapfinder, "demo", "--out", str(demo), "--events", str(size), "--seed", "1"],
-                check=True,
-                capture_output=True,
-            )
+            if args.shape == "demo":
+                subprocess.run(
+                    [gapfinder, "demo", "--out", str(demo), "--events", str(size), "--seed", "1"],
+                    check=True,
+                    capture_output=True,
+                )
+            else:
+                from _synthetic import synthetic_suite, synthetic_telemetry
+
+                synthetic_telemetry(demo / "field" / "events.parquet", size)
+                synthetic_suite(demo / "tests" / "suite_traces.csv")
             subprocess.run(
                 [gapfinder, "profile", str(demo / "field"), "-w", ws, "--format", "json"],
                 check=True,

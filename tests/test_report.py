@@ -191,3 +191,17 @@ def test_the_overlap_probe_sees_an_overlap(tmp_path: Path) -> None:
 def test_no_text_overlaps_in_the_charts_at_two_widths(data: dict, tmp_path: Path, width: int) -> None:
     """Every chart label keeps its own space: bounding boxes from the DOM of headless Chromium."""
     assert _overlaps(render_html(data), tmp_path, width) == []
+
+
+def test_diagram_layers_cover_features_whose_ways_in_were_cut() -> None:
+    """A feature drawn only as the source of the transitions kept (its own ways in fell under the
+    edge limit) still gets a layer; found on high-entropy telemetry, where the report failed."""
+    from gapfinder.report.data import _layers
+
+    edges = [
+        {"source": "START", "target": "a", "occurrences": 9},
+        {"source": "b", "target": "a", "occurrences": 3},
+        {"source": "a", "target": "END", "occurrences": 9},
+    ]
+    layer = _layers(edges)
+    assert layer["b"] >= 1 and layer["a"] >= 1 and layer["END"] > max(layer["a"], layer["b"])

@@ -91,7 +91,10 @@ def _layers(edges: list[dict[str, Any]]) -> dict[str, int]:
             return 0
         return depth(parent[node][1], seen | {node}) + 1
 
-    for node in sorted(parent):
+    # every feature drawn gets a layer, also one whose ways in were not among the edges kept (it
+    # starts a chain of its own, just after START)
+    drawn = {str(e["source"]) for e in edges} | {str(e["target"]) for e in edges} | set(parent)
+    for node in sorted(drawn - {"START", "END"}):
         layer[node] = max(1, depth(node, frozenset()))
     layer["END"] = max(layer.values(), default=0) + 1
     return layer

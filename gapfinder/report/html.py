@@ -107,6 +107,31 @@ def nice_ticks(low: float, high: float, *, most: int = 6) -> list[float]:
     return [0.0, 0.25, 0.5, 0.75, 1.0]
 
 
+def axis_ticks(low: float, high: float, *, most: int = 6) -> list[float]:
+    """Axis ticks at round steps (1, 2, 2.5 or 5 times a power of ten) spanning low..high, for
+    values of any size (bits per step), at least two.
+
+    >>> axis_ticks(0.347, 0.384)
+    [0.34, 0.35, 0.36, 0.37, 0.38, 0.39]
+    >>> axis_ticks(1.2, 3.9)
+    [1.0, 1.5, 2.0, 2.5, 3.0, 3.5, 4.0]
+    >>> axis_ticks(2.0, 2.0)
+    [1.99, 2.0, 2.01]
+    """
+    low, high = min(low, high), max(low, high)
+    span = high - low if high > low else max(abs(high) * 0.1, 1e-6)
+    power = 10.0 ** math.floor(math.log10(span / most))
+    for factor in (1, 2, 2.5, 5, 10, 20, 25, 50):
+        step = factor * power
+        first = math.floor(low / step + 1e-9) * step
+        last = math.ceil(high / step - 1e-9) * step
+        if last - first < step:
+            first, last = first - step, last + step
+        if round((last - first) / step) <= most:
+            return [round(first + k * step, 10) for k in range(round((last - first) / step) + 1)]
+    return [low, high]
+
+
 def _bits(v: float, _digits: int = 0) -> str:
     """Bits per step, always to three decimals (the percent digits the chart passes do not apply)."""
     return f"{v:.3f}"
@@ -125,7 +150,7 @@ def _trend_chart(
         return '<p class="note">Not enough periods for a trend yet.</p>'
     width, height, left, right, top, bottom = 760, 230, 56, 48, 16, 40
     values = [v for _, v in points]
-    ticks = nice_ticks(min(values), max(values))
+    ticks = nice_ticks(min(values), max(values)) if fmt is _pct else axis_ticks(min(values), max(values))
     low, high = ticks[0], ticks[-1]
     plot_w, plot_h = width - left - right, height - top - bottom
 
