@@ -207,11 +207,13 @@ def journey_families(ws: Workspace, options: FamilyOptions | None = None) -> dic
     hidden = set(hidden_full_path_ids(con, min_users=options.min_users).tolist())
     families: list[dict[str, Any]] = []
     held_back = 0
+    unlisted: list[np.ndarray] = [np.flatnonzero(labels < 0)]
     for label in sorted(set(labels.tolist()) - {-1}):
         rows = np.flatnonzero(labels == label)
         users = int(reach.get(label, {}).get("users") or 0)
         if users < options.min_users:
             held_back += 1
+            unlisted.append(rows)
             continue
         order = rows[np.lexsort((path_ids[rows], -sessions[rows]))]
         typical = next((int(i) for i in order if int(path_ids[i]) not in hidden), None)
@@ -247,7 +249,9 @@ def journey_families(ws: Workspace, options: FamilyOptions | None = None) -> dic
             }
         )
     families.sort(key=lambda f: (-f["sessions"], f["name"] or ""))
-    unassigned = int(sessions[labels < 0].sum())
+    # Sessions in no family and in families under the floor are given as one number, so that a
+    # held-back family's sessions cannot be read off the total minus the families shown.
+    unassigned = int(sessions[np.concatenate(unlisted)].sum())
     return {
         "workspace": str(ws.path),
         "families": families,

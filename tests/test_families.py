@@ -73,3 +73,12 @@ def test_paths_beyond_the_clustered_ones_are_attached_by_similarity(sample_works
     attached = assigned.labels[40:]
     assert (attached >= 0).mean() > 0.5  # most of the less taken paths find their family
     assert assigned.sessions[assigned.labels < 0].sum() < 0.01 * assigned.sessions.sum()
+
+
+def test_held_back_families_cannot_be_read_off_the_total(suite_workspace: Path) -> None:
+    with Workspace(suite_workspace, read_only=True) as ws:
+        result = journey_families(ws, FamilyOptions(min_users=400))
+    assert result["held_back"] > 0
+    listed = sum(f["sessions"] for f in result["families"])
+    # what the listing shows adds up to the total: the held-back sessions are inside "no listed family"
+    assert listed + result["unassigned_sessions"] == result["sessions"]

@@ -40,7 +40,7 @@ def render_families(result: dict[str, Any], console: Console) -> None:
         )
     notes = [result["method"]]
     if result["unassigned_sessions"]:
-        notes.append(f"{_pct(result['unassigned_share'])} of sessions in no family")
+        notes.append(f"{_pct(result['unassigned_share'])} of sessions in no listed family")
     if result["held_back"]:
         notes.append(
             f"{result['held_back']} family(ies) under the privacy floor of {result['min_users']} users not shown"
