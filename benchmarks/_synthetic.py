@@ -96,3 +96,22 @@ def synthetic_suite(path: Path, tests: int = 40, *, seed: int = 2) -> Path:
             for n, item in enumerate(steps, start=1):
                 writer.writerow([f"test_{t:03d}", n, f"feature_{item:03d}"])
     return path
+
+
+def write_telemetry(shape: str, folder: Path, events: int, gapfinder: str, *, with_suite: bool = False) -> Path:
+    """Telemetry of ``shape`` (``demo``: `gapfinder demo`; ``entropy``: synthetic_telemetry) under
+    ``folder``/field, and with ``with_suite`` a suite under ``folder``/tests for the entropy shape
+    (the demo writes its own). Returns the field folder."""
+    import subprocess
+
+    if shape == "demo":
+        subprocess.run(
+            [gapfinder, "demo", "--out", str(folder), "--events", str(events), "--seed", "1"],
+            check=True,
+            capture_output=True,
+        )
+    else:
+        synthetic_telemetry(folder / "field" / "events.parquet", events)
+        if with_suite:
+            synthetic_suite(folder / "tests" / "suite_traces.csv")
+    return folder / "field"

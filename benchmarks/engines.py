@@ -24,6 +24,8 @@ import sys
 import tempfile
 from pathlib import Path
 
+from _synthetic import write_telemetry
+
 # benchmarks/profile.py is loaded under another name: as "profile" it would hide the standard library's.
 _spec = importlib.util.spec_from_file_location("profile_benchmark", Path(__file__).with_name("profile.py"))
 assert _spec and _spec.loader
@@ -103,16 +105,7 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         for size in args.sizes:
             demo = Path(tmp) / f"demo{size}"
-            if args.shape == "demo":
-                subprocess.run(
-                    [gapfinder, "demo", "--out", str(demo), "--events", str(size), "--seed", "1"],
-                    check=True,
-                    capture_output=True,
-                )
-            else:
-                from _synthetic import synthetic_telemetry
-
-                synthetic_telemetry(demo / "field" / "events.parquet", size)
+            write_telemetry(args.shape, demo, size, gapfinder)
             source = demo / "field"
             floors, duck, spark = [], [], []
             for i in range(args.runs):

@@ -26,6 +26,8 @@ import tempfile
 import time
 from pathlib import Path
 
+from _synthetic import write_telemetry
+
 FLOOR = """
 import duckdb, sys
 con = duckdb.connect()
@@ -93,16 +95,7 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         for size in args.sizes:
             demo = Path(tmp) / f"demo{size}"
-            if args.shape == "demo":
-                subprocess.run(
-                    [gapfinder, "demo", "--out", str(demo), "--events", str(size), "--seed", "1"],
-                    check=True,
-                    capture_output=True,
-                )
-            else:
-                from _synthetic import synthetic_telemetry
-
-                synthetic_telemetry(demo / "field" / "events.parquet", size)
+            write_telemetry(args.shape, demo, size, gapfinder)
             glob = str(demo / "field" / "**" / "*.parquet")
             floors, bare, profiles, polars_floors = [], [], [], []
             has_polars = importlib.util.find_spec("polars") is not None

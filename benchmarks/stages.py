@@ -22,6 +22,8 @@ import tempfile
 import time
 from pathlib import Path
 
+from _synthetic import write_telemetry
+
 FLOOR = """
 import duckdb, sys
 con = duckdb.connect(sys.argv[1], read_only=True)
@@ -52,17 +54,7 @@ def main() -> None:
         for size in args.sizes:
             demo = Path(tmp) / f"demo{size}"
             ws = str(Path(tmp) / f"ws{size}.duckdb")
-            if args.shape == "demo":
-                subprocess.run(
-                    [gapfinder, "demo", "--out", str(demo), "--events", str(size), "--seed", "1"],
-                    check=True,
-                    capture_output=True,
-                )
-            else:
-                from _synthetic import synthetic_suite, synthetic_telemetry
-
-                synthetic_telemetry(demo / "field" / "events.parquet", size)
-                synthetic_suite(demo / "tests" / "suite_traces.csv")
+            write_telemetry(args.shape, demo, size, gapfinder, with_suite=True)
             subprocess.run(
                 [gapfinder, "profile", str(demo / "field"), "-w", ws, "--format", "json"],
                 check=True,

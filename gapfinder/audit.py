@@ -271,11 +271,9 @@ def _grouped_coverage(
     return groups
 
 
-def _divergence(transitions: Any, suite_counts: dict[tuple[str, str], int]) -> float | None:
-    """The Whittaker-Thomason discriminant of the suite against one period's usage chain (bits per
-    step); None without transitions. ``transitions`` maps (a, b) to (occurrences, ...) or is a list
-    of (a, b, occurrences)."""
-    edges = [(a, b, v[0]) for (a, b), v in transitions.items()] if isinstance(transitions, dict) else list(transitions)
+def _divergence(edges: list[tuple[str, str, int]], suite_counts: dict[tuple[str, str], int]) -> float | None:
+    """The Whittaker-Thomason discriminant of the suite against one period's usage chain, given as
+    (source, target, occurrences) edges (bits per step); None without transitions."""
     if not edges:
         return None
     return discriminant(UsageModel.from_transitions(edges), suite_counts).bits_per_step
@@ -370,8 +368,8 @@ def audit(ws: Workspace, options: AuditOptions | None = None) -> dict[str, Any]:
             "current": _coverage(now, exercised_f, exercised_t),
         },
         "divergence": {
-            "previous": _divergence(before.transitions, suite_counts),
-            "current": _divergence(now.transitions, suite_counts),
+            "previous": _divergence([(a, b, v[0]) for (a, b), v in before.transitions.items()], suite_counts),
+            "current": _divergence([(a, b, v[0]) for (a, b), v in now.transitions.items()], suite_counts),
         },
         "trend": _trend(ws, Period(None, None, "all"), options.trend, exercised_t, suite_counts),
         "trend_unit": options.trend,

@@ -366,7 +366,7 @@ def coverage_report(ws: Workspace, *, max_gap: int = 0, min_users: int = DEFAULT
     result["suite"] = suite_reading(ws)
     from gapfinder.representativeness import suite_discriminant
 
-    result["representativeness"] = suite_discriminant(ws).as_dict()
+    result["representativeness"] = suite_discriminant(ws, tests).as_dict()
     from gapfinder.redundancy import redundant_tests
 
     result["redundant"] = redundant_tests(tests, items)

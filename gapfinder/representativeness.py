@@ -25,11 +25,15 @@ import itertools
 import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from gapfinder.usage_model import END, START, UsageModel, stationary_distribution
 from gapfinder.workspace import Workspace
+
+if TYPE_CHECKING:
+    from gapfinder.coverage import TestPaths
 
 __all__ = [
     "Discriminant",
@@ -93,21 +97,22 @@ def suite_transitions(paths: Iterable[Sequence[str | None]]) -> dict[tuple[str, 
     return counts
 
 
-def suite_transition_counts(ws: Workspace) -> dict[tuple[str, str], int]:
-    """Transition counts of the workspace's stored suite (the tests that count), by event name."""
+def suite_transition_counts(ws: Workspace, tests: TestPaths | None = None) -> dict[tuple[str, str], int]:
+    """Transition counts of the workspace's stored suite (the tests that count), by event name;
+    ``tests`` when the caller has loaded them already."""
     from gapfinder.coverage import load_test_paths
     from gapfinder.paths import feature_names
 
     names = feature_names(ws.con)
-    tests = load_test_paths(ws)
+    tests = tests or load_test_paths(ws)
     return suite_transitions([[names[i] if 0 <= i < len(names) else None for i in framed] for framed in tests.framed])
 
 
-def suite_discriminant(ws: Workspace, *, prior: float = 1.0) -> Discriminant:
+def suite_discriminant(ws: Workspace, tests: TestPaths | None = None, *, prior: float = 1.0) -> Discriminant:
     """The discriminant of the workspace's stored suite against its usage model."""
     from gapfinder.usage_profile import load_usage_model
 
-    return discriminant(load_usage_model(ws.con), suite_transition_counts(ws), prior=prior)
+    return discriminant(load_usage_model(ws.con), suite_transition_counts(ws, tests), prior=prior)
 
 
 def discriminant(usage: UsageModel, tests: dict[tuple[str, str], int], *, prior: float = 1.0) -> Discriminant:
