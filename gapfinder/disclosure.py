@@ -29,7 +29,6 @@ events.
 from __future__ import annotations
 
 import numpy as np
-import pandas as pd
 
 __all__ = ["complementary_suppression", "kpath_parents"]
 
@@ -72,34 +71,69 @@ def complementary_suppression(
     sacrificed first; ties broken by key), ``groups`` holds, per partition family, each row's
     group key: a group key equal to a row's key names that row as the group's parent total.
     Returns the new mask; the input is not changed.
+
+    Each family's rows are sorted once by (group, value, key); a round is then a few passes of
+    numpy over the mask, so millions of k-paths take seconds.
     """
     hidden = np.asarray(hidden, dtype=bool).copy()
     if not hidden.any() or len(keys) == 0:
         return hidden
-    position = pd.Index(keys)
-    frames = [pd.DataFrame({"group": g, "value": values, "key": keys, "row": np.arange(len(keys))}) for g in groups]
+    keys = np.asarray(keys)
+    by_key = np.argsort(keys, kind="stable")
+    families = [_Family.of(np.asarray(g), np.asarray(values), keys, by_key) for g in groups]
     for _ in range(max_rounds):
         changed = False
-        for frame in frames:
-            frame["hidden"] = hidden
-            counts = frame.groupby("group", sort=False)["hidden"].agg(["sum", "size"])
-            lone = counts.index[(counts["sum"] == 1)]
-            if len(lone) == 0:
-                continue
-            members = frame[frame["group"].isin(lone)]
-            visible = members[~members["hidden"]].sort_values(["group", "value", "key"])
-            first = visible.drop_duplicates("group")
-            if len(first):
-                hidden[first["row"].to_numpy()] = True
-                changed = True
-            # both are unique (a groupby index, and one row per group): no sorting needed
-            orphans = np.setdiff1d(np.asarray(lone), first["group"].to_numpy(), assume_unique=True)
-            parents = position.get_indexer(orphans)
-            parents = parents[parents >= 0]
-            parents = parents[~hidden[parents]]
-            if len(parents):
-                hidden[parents] = True
-                changed = True
+        for family in families:
+            changed |= family.extend(hidden)
         if not changed:
             break
     return hidden
+
+
+class _Family:
+    """One partition family, its rows sorted by (group, value, key)."""
+
+    def __init__(self, order: np.ndarray, group_of: np.ndarray, group_count: int, parent: np.ndarray) -> None:
+        self.order = order  # row numbers in (group, value, key) order
+        self.group_of = group_of  # each sorted position's group number
+        self.group_count = group_count
+        self.parent = parent  # each group's parent row, or -1
+
+    @classmethod
+    def of(cls, group: np.ndarray, values: np.ndarray, keys: np.ndarray, by_key: np.ndarray) -> _Family:
+        order = np.lexsort((keys, values, group))
+        sorted_groups = group[order]
+        is_new = np.empty(len(order), dtype=bool)
+        is_new[:1] = True
+        np.not_equal(sorted_groups[1:], sorted_groups[:-1], out=is_new[1:])
+        group_of = np.cumsum(is_new) - 1
+        group_keys = sorted_groups[is_new]
+        found = np.searchsorted(keys, group_keys, sorter=by_key)
+        found = np.minimum(found, len(keys) - 1)
+        parent = by_key[found]
+        parent[keys[parent] != group_keys] = -1
+        return cls(order, group_of, int(group_of[-1]) + 1 if len(order) else 0, parent)
+
+    def extend(self, hidden: np.ndarray) -> bool:
+        """One pass: in each group with exactly one hidden member hide its smallest visible member,
+        or its parent when it has none. Changes ``hidden``; returns whether anything changed."""
+        in_order = hidden[self.order]
+        hidden_per_group = np.bincount(self.group_of, weights=in_order, minlength=self.group_count)
+        lone = hidden_per_group == 1
+        if not lone.any():
+            return False
+        candidates = np.flatnonzero(lone[self.group_of] & ~in_order)
+        candidate_groups = self.group_of[candidates]
+        first = np.ones(len(candidates), dtype=bool)
+        np.not_equal(candidate_groups[1:], candidate_groups[:-1], out=first[1:])
+        changed = bool(first.any())
+        hidden[self.order[candidates[first]]] = True
+        orphans = lone.copy()
+        orphans[candidate_groups] = False
+        parents = self.parent[orphans]
+        parents = parents[parents >= 0]
+        parents = parents[~hidden[parents]]
+        if len(parents):
+            hidden[parents] = True
+            changed = True
+        return changed

@@ -2,7 +2,8 @@
 
 Every session path is framed as START → events → END. A k-path is a contiguous run of k states
 of that frame (k = 2 gives the transitions), counted three ways: occurrences, sessions that
-contain it, and distinct users. All counting happens in DuckDB (queries/create_kpaths.sql).
+contain it, and distinct users. All counting happens in DuckDB (queries/create_kpath_runs.sql, then
+queries/create_kpaths.sql).
 """
 
 from __future__ import annotations
@@ -61,7 +62,9 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
             f"--max-k {max_k}: with {2**bits - 2:,}+ distinct events a path of {max_k} steps does not "
             f"fit in 60 bits; use --max-k {60 // bits} or less"
         )
-    run(con, "create_kpaths", max_k=max_k, bits=bits, include_automated=include_automated)
+    run(con, "create_kpath_runs", max_k=max_k, bits=bits)
+    run(con, "create_kpaths", bits=bits, include_automated=include_automated)
+    run(con, "drop_kpath_runs")
 
 
 def feature_names(con: duckdb.DuckDBPyConnection) -> list[str]:

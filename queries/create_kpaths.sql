@@ -1,77 +1,55 @@
--- Creates the kpaths table: every contiguous run of k = 1..$max_k states in the session paths
--- framed by START (0) and END (1) (k = 1 are the features, k = 2 the transitions), with
--- occurrences, sessions containing it and distinct users, over the sessions that count for the
--- usage profile. A run is packed into one integer: k in the top 4 bits, then each event id in
--- $bits bits; runs are formed once per distinct path (full_paths) and weighted by its sessions,
--- and distinct users come from each user's set of distinct paths (users with the same set are
--- counted once, weighted), so no per-event rows are made.
--- Reads full_paths, sessions. Parameters: $max_k (1..7), $bits (bits per event id),
--- $include_automated (BOOLEAN).
+-- Creates the kpaths table: every contiguous run of k = 1..max_k states in the session paths
+-- framed by START and END (k = 1 are the features, k = 2 the transitions), with occurrences,
+-- sessions containing it and distinct users, over the sessions that count for the usage profile.
+-- Runs come packed from path_runs (one sorted list per distinct path, weighted by its sessions), so
+-- no per-event rows are made: a run's first copy in its path's sorted list counts the sessions once.
+-- Distinct users come from each user's set of distinct paths (users with the same set are counted
+-- once, weighted): a set of one path reuses that path's first copies; larger sets take the distinct
+-- (set, run) pairs.
+-- Reads path_runs, sessions. Parameters: $bits (bits per event id), $include_automated (BOOLEAN).
 CREATE OR REPLACE TABLE kpaths AS
-WITH framed AS (
-    SELECT path_id, sessions, list_concat([0], path, [1])::UBIGINT[] AS p
-    FROM full_paths
-    WHERE sessions > 0
-),
-windows AS (
-    SELECT
-        path_id,
-        sessions,
-        list_concat(
-            list_transform(range(2, len(p)), lambda i: (1::UBIGINT << 60) | p[i]),
-            list_transform(range(1, len(p)), lambda i: (2::UBIGINT << 60) | (p[i] << $bits) | p[i + 1]),
-            CASE WHEN $max_k >= 3 THEN list_transform(range(1, len(p) - 1), lambda i:
-                (3::UBIGINT << 60) | (p[i] << (2 * $bits)) | (p[i + 1] << $bits) | p[i + 2]) END,
-            CASE WHEN $max_k >= 4 THEN list_transform(range(1, len(p) - 2), lambda i:
-                (4::UBIGINT << 60) | (p[i] << (3 * $bits)) | (p[i + 1] << (2 * $bits))
-                | (p[i + 2] << $bits) | p[i + 3]) END,
-            CASE WHEN $max_k >= 5 THEN list_transform(range(1, len(p) - 3), lambda i:
-                (5::UBIGINT << 60) | (p[i] << (4 * $bits)) | (p[i + 1] << (3 * $bits))
-                | (p[i + 2] << (2 * $bits)) | (p[i + 3] << $bits) | p[i + 4]) END,
-            CASE WHEN $max_k >= 6 THEN list_transform(range(1, len(p) - 4), lambda i:
-                (6::UBIGINT << 60) | (p[i] << (5 * $bits)) | (p[i + 1] << (4 * $bits))
-                | (p[i + 2] << (3 * $bits)) | (p[i + 3] << (2 * $bits)) | (p[i + 4] << $bits)
-                | p[i + 5]) END,
-            CASE WHEN $max_k >= 7 THEN list_transform(range(1, len(p) - 5), lambda i:
-                (7::UBIGINT << 60) | (p[i] << (6 * $bits)) | (p[i + 1] << (5 * $bits))
-                | (p[i + 2] << (4 * $bits)) | (p[i + 3] << (3 * $bits)) | (p[i + 4] << (2 * $bits))
-                | (p[i + 5] << $bits) | p[i + 6]) END
-        ) AS codes
-    FROM framed
-),
-per_path AS (
-    SELECT path_id, sessions, code, count(*) AS occurrences_in_path
-    FROM (SELECT path_id, sessions, unnest(codes) AS code FROM windows)
-    GROUP BY path_id, sessions, code
-),
-usage AS (
-    SELECT code, sum(sessions * occurrences_in_path)::BIGINT AS occurrences, sum(sessions)::BIGINT AS sessions
-    FROM per_path
-    GROUP BY code
-),
-path_codes AS (
-    SELECT path_id, unnest(list_distinct(codes)) AS code FROM windows
-),
-user_signatures AS (
+WITH signatures AS (
     -- users with the same set of distinct paths reach the same runs: count each set once
-    SELECT list_sort(list(DISTINCT path_id)) AS signature
-    FROM sessions
-    WHERE $include_automated OR NOT is_automated
-    GROUP BY user_key
-),
-signatures AS (
-    SELECT row_number() OVER () AS signature_id, signature, count(*) AS user_count
-    FROM user_signatures
+    SELECT signature, count(*) AS user_count
+    FROM (
+        SELECT list_sort(list(DISTINCT path_id)) AS signature
+        FROM sessions
+        WHERE $include_automated OR NOT is_automated
+        GROUP BY user_key
+    )
     GROUP BY signature
 ),
-signature_codes AS (
-    SELECT DISTINCT s.signature_id, s.user_count, c.code
-    FROM (SELECT signature_id, user_count, unnest(signature) AS path_id FROM signatures) AS s
-    JOIN path_codes AS c USING (path_id)
+single_path_users AS (
+    SELECT signature[1] AS path_id, user_count FROM signatures WHERE len(signature) = 1
 ),
-reach AS (
+flagged AS (
+    SELECT
+        r.sessions,
+        coalesce(u.user_count, 0) AS single_path_users,
+        unnest(r.runs) AS code,
+        unnest(list_transform(r.runs, lambda x, i: i = 1 OR r.runs[i - 1] <> x)) AS is_first
+    FROM path_runs AS r
+    LEFT JOIN single_path_users AS u USING (path_id)
+),
+usage AS (
+    SELECT
+        code,
+        sum(sessions)::BIGINT AS occurrences,
+        sum(sessions) FILTER (WHERE is_first)::BIGINT AS sessions,
+        sum(single_path_users) FILTER (WHERE is_first)::BIGINT AS single_path_users
+    FROM flagged
+    GROUP BY code
+),
+several_paths_reach AS (
     SELECT code, sum(user_count)::BIGINT AS users
-    FROM signature_codes
+    FROM (
+        SELECT DISTINCT s.signature_id, s.user_count, unnest(r.runs) AS code
+        FROM (
+            SELECT signature_id, user_count, unnest(signature) AS path_id
+            FROM (SELECT row_number() OVER () AS signature_id, * FROM signatures WHERE len(signature) > 1)
+        ) AS s
+        JOIN path_runs AS r USING (path_id)
+    )
     GROUP BY code
 )
 SELECT
@@ -83,6 +61,6 @@ SELECT
     ) AS path,
     usage.occurrences,
     usage.sessions,
-    reach.users
+    usage.single_path_users + coalesce(several_paths_reach.users, 0) AS users
 FROM usage
-JOIN reach USING (code);
+LEFT JOIN several_paths_reach USING (code);
