@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 
 from gapfinder.errors import ConfigError
+from gapfinder.mining import SequenceDatabase, containing_sequences
 from gapfinder.paths import feature_names, id_bits
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts, first_row
@@ -207,9 +208,22 @@ def _exercised_by_test(tests: TestPaths, items: FieldItems, max_gap: int) -> lis
 def _pattern_hits(tests: TestPaths, items: FieldItems, gap: int | None) -> np.ndarray:
     """(tests × patterns) booleans: which test exercises which stored pattern."""
     hits = np.zeros((len(tests.framed), len(items.patterns)), dtype=bool)
-    for t, framed in enumerate(tests.framed):
-        for p, pattern in enumerate(items.patterns):
-            hits[t, p] = occurs_in(pattern, framed, gap)
+    if hits.size == 0:
+        return hits
+    patterns = [tuple(int(e) for e in pattern) for pattern in items.patterns]
+    empty = np.array([not pattern for pattern in patterns])
+    hits[:, empty] = True  # an empty pattern occurs everywhere (as in occurs_in)
+    wanted = np.flatnonzero(~empty)
+    if len(wanted):
+        # the tests' framed paths are the sequences (START and END are items of them); an unknown
+        # step (-1) becomes an id no pattern holds
+        steps = [np.asarray(framed, dtype=np.int64) for framed in tests.framed]
+        unknown = 1 + max(max((max(p) for p in patterns if p), default=1), max(int(x.max()) for x in steps))
+        db = SequenceDatabase.from_sequences([np.where(x == UNKNOWN, unknown, x).tolist() for x in steps])
+        which, test_rows = containing_sequences(
+            db, [patterns[p] for p in wanted], max_gaps=[gap] * len(wanted), framed=[False] * len(wanted)
+        )
+        hits[test_rows, wanted[which]] = True
     return hits
 
 

@@ -286,22 +286,28 @@ def _occurrence_frame(
     positions: np.ndarray,
     after: np.ndarray,
 ) -> pa.Table:
-    """(candidate, path_id, step_positions, event_positions, after_position) per matched distinct path."""
+    """(candidate, path_id, step_positions, event_positions, after_position) per matched distinct path.
+
+    Built column-wise: a step's position is kept when it is an event of the path (1..length; START
+    and END give NULL step positions and no event position)."""
     lengths = (starts[sequence + 1] - starts[sequence]).astype(np.int64)
-    step_rows: list[list[int | None]] = []
-    event_rows: list[list[int]] = []
-    for row, candidate in enumerate(which.tolist()):
-        k = len(pool[candidate].path)
-        steps = [int(p) if 1 <= p <= lengths[row] else None for p in positions[row, :k].tolist()]
-        step_rows.append(steps)
-        event_rows.append([p for p in steps if p is not None])
+    k = np.array([len(c.path) for c in pool], dtype=np.int64)[which] if len(which) else np.zeros(0, np.int64)
+    width = positions.shape[1] if positions.ndim == 2 else 0
+    steps = np.arange(width)[None, :] < k[:, None]
+    in_path = steps & (positions >= 1) & (positions <= lengths[:, None])
+    step_offsets = np.zeros(len(which) + 1, dtype=np.int32)
+    np.cumsum(k, out=step_offsets[1:])
+    event_offsets = np.zeros(len(which) + 1, dtype=np.int32)
+    np.cumsum(in_path.sum(axis=1), out=event_offsets[1:])
+    step_values = pa.array(positions[steps].astype(np.int32), mask=~in_path[steps])
+    event_values = pa.array(positions[in_path].astype(np.int32))
     return pa.table(
         {
             "candidate": pa.array(which, pa.int64()),
             "path_id": pa.array(path_ids, pa.int64()),
-            "step_positions": pa.array(step_rows, pa.list_(pa.int32())),
-            "event_positions": pa.array(event_rows, pa.list_(pa.int32())),
-            "after_position": pa.array([int(a) if a > 0 else None for a in after.tolist()], pa.int32()),
+            "step_positions": pa.ListArray.from_arrays(pa.array(step_offsets), step_values),
+            "event_positions": pa.ListArray.from_arrays(pa.array(event_offsets), event_values),
+            "after_position": pa.array(after.astype(np.int32), mask=after <= 0),
         }
     )
 

@@ -186,3 +186,26 @@ def test_redundant_tests_lose_nothing_when_taken_out(suite_workspace: Path) -> N
     assert after == before
     # every test left exercises something no other does
     assert redundant_tests(kept, items) == []
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    tests=st.lists(st.lists(st.sampled_from([-1, 2, 3, 4, 5]), max_size=9), min_size=1, max_size=5),
+    patterns=st.lists(st.lists(st.sampled_from([2, 3, 4, 5]), min_size=1, max_size=4), min_size=1, max_size=6),
+    gap=st.sampled_from([None, 0, 1, 2]),
+)
+def test_pattern_hits_equal_the_plain_subsequence_check(
+    tests: list[list[int]], patterns: list[list[int]], gap: int | None
+) -> None:
+    """Property: the compiled matcher marks exactly the (test, pattern) pairs where occurs_in holds,
+    on framed paths with unknown steps (-1) and every gap bound coverage uses."""
+    import numpy as np
+
+    from gapfinder.coverage import FieldItems, _pattern_hits, occurs_in
+
+    framed = [[0, *t, 1] for t in tests]
+    empty = np.zeros(0, np.int64)
+    items = FieldItems(empty, empty, None, empty, empty, empty, 8, 2, patterns=[tuple(p) for p in patterns])
+    hits = _pattern_hits(TestPaths([f"t{i}" for i in range(len(framed))], framed), items, gap)
+    expected = [[occurs_in(p, f, gap) for p in patterns] for f in framed]
+    assert hits.tolist() == expected
