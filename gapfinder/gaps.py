@@ -197,12 +197,28 @@ def session_sets(which: np.ndarray, sequence: np.ndarray, weights: np.ndarray, c
 
 
 def session_jaccard(a: SessionSet, b: SessionSet) -> float:
-    """Jaccard index of two gaps' session sets (each given by the distinct paths holding it, weighted)."""
+    """Jaccard index of two gaps' session sets (each given by the distinct paths holding it, sorted,
+    weighted by their sessions)."""
     ids_a, weights_a = a
     ids_b, weights_b = b
-    shared = int(weights_a[np.isin(ids_a, ids_b, assume_unique=True)].sum())
+    if len(ids_a) > len(ids_b):  # look the smaller set up in the larger (a path weighs the same in both)
+        ids_a, weights_a, ids_b, weights_b = ids_b, weights_b, ids_a, weights_a
+    shared = 0
+    if len(ids_a) and len(ids_b):
+        at = np.minimum(np.searchsorted(ids_b, ids_a), len(ids_b) - 1)
+        shared = int(weights_a[ids_b[at] == ids_a].sum())
     union = int(weights_a.sum()) + int(weights_b.sum()) - shared
     return shared / union if union else 0.0
+
+
+def _one_journey(a: SessionSet, b: SessionSet) -> bool:
+    """Whether two session sets share more than FAMILY_JACCARD of their union. The Jaccard index is
+    at most the smaller total over the larger, so sets of very different size are told apart
+    without comparing their paths."""
+    total_a, total_b = int(a[1].sum()), int(b[1].sum())
+    if min(total_a, total_b) <= FAMILY_JACCARD * max(total_a, total_b):
+        return False
+    return session_jaccard(a, b) > FAMILY_JACCARD
 
 
 def _lead(members: list[dict[str, Any]]) -> dict[str, Any]:
@@ -231,7 +247,7 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
         home = next((f for path, f in known if _contains(ids, path)), None)
         if home is None:
             home = next(
-                (f for f, lead in enumerate(leads) if session_jaccard(own, sets[lead["_index"]]) > FAMILY_JACCARD),
+                (f for f, lead in enumerate(leads) if _one_journey(own, sets[lead["_index"]])),
                 None,
             )
         if home is not None:
@@ -249,11 +265,7 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
         merged = False
         for i in range(1, len(families)):
             j = next(
-                (
-                    j
-                    for j in range(i)
-                    if session_jaccard(sets[leads[i]["_index"]], sets[leads[j]["_index"]]) > FAMILY_JACCARD
-                ),
+                (j for j in range(i) if _one_journey(sets[leads[i]["_index"]], sets[leads[j]["_index"]])),
                 None,
             )
             if j is not None:
@@ -266,9 +278,10 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
     for members, lead in zip(families[:top], leads[:top], strict=False):
         entry = {k: v for k, v in lead.items() if not k.startswith("_")}
         entry["score"] = members[0]["score"]
-        union = np.unique(np.concatenate([sets[m["_index"]][0] for m in members]))
-        weights = {int(i): int(w) for m in members for i, w in zip(*sets[m["_index"]], strict=True)}
-        entry["family_sessions"] = sum(weights[int(i)] for i in union)
+        member_ids = np.concatenate([sets[m["_index"]][0] for m in members])
+        member_weights = np.concatenate([sets[m["_index"]][1] for m in members])
+        _, first = np.unique(member_ids, return_index=True)  # a path weighs the same in every set
+        entry["family_sessions"] = int(member_weights[first].sum())
         entry["folded"] = [
             {"kind": m["kind"], "path": m["path"], "sessions": m["sessions"]} for m in members if m is not lead
         ]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -48,3 +49,28 @@ def test_listed_gaps_share_at_most_half_their_sessions(gaps: list, top: int, wei
         members = [gap, *gap["folded"]]
         best = max(m["sessions"] for m in members)
         assert gap["sessions"] >= 0.8 * best
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    st.dictionaries(st.integers(0, 40), st.integers(1, 9), max_size=25),
+    st.lists(st.integers(0, 40), max_size=25, unique=True),
+)
+def test_session_jaccard_and_the_size_bound_agree_with_sets(weights: dict[int, int], other: list[int]) -> None:
+    """Property: the Jaccard index of weighted path sets equals the one computed with Python sets,
+    and the size bound never rejects a pair whose index is above the threshold."""
+    from gapfinder.gaps import FAMILY_JACCARD, _one_journey
+
+    every = dict(weights)
+    for path in other:
+        every.setdefault(path, 1 + path % 4)
+    ids_a = np.array(sorted(weights), dtype=np.int64)
+    ids_b = np.array(sorted(other), dtype=np.int64)
+    a = (ids_a, np.array([every[i] for i in ids_a.tolist()], dtype=np.int64))
+    b = (ids_b, np.array([every[i] for i in ids_b.tolist()], dtype=np.int64))
+    shared = sum(every[i] for i in set(weights) & set(other))
+    union = sum(every[i] for i in set(weights) | set(other))
+    expected = shared / union if union else 0.0
+    assert session_jaccard(a, b) == pytest.approx(expected)
+    assert session_jaccard(b, a) == pytest.approx(expected)
+    assert _one_journey(a, b) == (expected > FAMILY_JACCARD)
