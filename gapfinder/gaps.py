@@ -211,14 +211,40 @@ def session_jaccard(a: SessionSet, b: SessionSet) -> float:
     return shared / union if union else 0.0
 
 
-def _one_journey(a: SessionSet, b: SessionSet) -> bool:
-    """Whether two session sets share more than FAMILY_JACCARD of their union. The Jaccard index is
-    at most the smaller total over the larger, so sets of very different size are told apart
-    without comparing their paths."""
-    total_a, total_b = int(a[1].sum()), int(b[1].sum())
-    if min(total_a, total_b) <= FAMILY_JACCARD * max(total_a, total_b):
-        return False
-    return session_jaccard(a, b) > FAMILY_JACCARD
+class _FamilyTest:
+    """Whether two gaps' session sets share more than FAMILY_JACCARD of their union.
+
+    The Jaccard index is at most the smaller total over the larger, so sets of very different size
+    are told apart without comparing paths; otherwise one set's paths are looked up in a boolean
+    mask of the other's (a family lead's mask is made once and kept: every later gap is compared
+    with the leads)."""
+
+    def __init__(self, sets: dict[int, SessionSet]) -> None:
+        self.sets = sets
+        self.size = 1 + max((int(ids[-1]) for ids, _ in sets.values() if len(ids)), default=0)
+        self.totals: dict[int, int] = {}
+        self.masks: dict[int, np.ndarray] = {}
+
+    def total(self, n: int) -> int:
+        if n not in self.totals:
+            self.totals[n] = int(self.sets[n][1].sum())
+        return self.totals[n]
+
+    def mask(self, n: int) -> np.ndarray:
+        if n not in self.masks:
+            mask = np.zeros(self.size, dtype=bool)
+            mask[self.sets[n][0]] = True
+            self.masks[n] = mask
+        return self.masks[n]
+
+    def __call__(self, gap: int, lead: int) -> bool:
+        total_gap, total_lead = self.total(gap), self.total(lead)
+        if min(total_gap, total_lead) <= FAMILY_JACCARD * max(total_gap, total_lead):
+            return False
+        ids, weights = self.sets[gap]
+        shared = int(weights[self.mask(lead)[ids]].sum())
+        union = total_gap + total_lead - shared
+        return union > 0 and shared / union > FAMILY_JACCARD
 
 
 def _lead(members: list[dict[str, Any]]) -> dict[str, Any]:
@@ -239,15 +265,16 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
     best member's score, with the others folded under it. Leads that still share more than half of
     their sessions are merged, so no two listed gaps do.
     """
+    one_journey = _FamilyTest(sets)
     families: list[list[dict[str, Any]]] = []
     leads: list[dict[str, Any]] = []
     known: list[tuple[tuple[int, ...], int]] = []
     for gap in ranked:
-        ids, own = gap["_ids"], sets[gap["_index"]]
+        ids = gap["_ids"]
         home = next((f for path, f in known if _contains(ids, path)), None)
         if home is None:
             home = next(
-                (f for f, lead in enumerate(leads) if _one_journey(own, sets[lead["_index"]])),
+                (f for f, lead in enumerate(leads) if one_journey(gap["_index"], lead["_index"])),
                 None,
             )
         if home is not None:
@@ -265,7 +292,7 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
         merged = False
         for i in range(1, len(families)):
             j = next(
-                (j for j in range(i) if _one_journey(sets[leads[i]["_index"]], sets[leads[j]["_index"]])),
+                (j for j in range(i) if one_journey(leads[i]["_index"], leads[j]["_index"])),
                 None,
             )
             if j is not None:

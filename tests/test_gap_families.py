@@ -59,7 +59,7 @@ def test_listed_gaps_share_at_most_half_their_sessions(gaps: list, top: int, wei
 def test_session_jaccard_and_the_size_bound_agree_with_sets(weights: dict[int, int], other: list[int]) -> None:
     """Property: the Jaccard index of weighted path sets equals the one computed with Python sets,
     and the size bound never rejects a pair whose index is above the threshold."""
-    from gapfinder.gaps import FAMILY_JACCARD, _one_journey
+    from gapfinder.gaps import FAMILY_JACCARD, _FamilyTest
 
     every = dict(weights)
     for path in other:
@@ -73,4 +73,5 @@ def test_session_jaccard_and_the_size_bound_agree_with_sets(weights: dict[int, i
     expected = shared / union if union else 0.0
     assert session_jaccard(a, b) == pytest.approx(expected)
     assert session_jaccard(b, a) == pytest.approx(expected)
-    assert _one_journey(a, b) == (expected > FAMILY_JACCARD)
+    one_journey = _FamilyTest({0: a, 1: b})
+    assert one_journey(0, 1) == one_journey(1, 0) == (expected > FAMILY_JACCARD)
