@@ -631,6 +631,23 @@ def _match_kernel(  # pragma: no cover - compiled
             if n < b - a:
                 continue
             any_end = False
+            if gap == 0:
+                # contiguous: compare the pattern at each start directly (no reachability sweep)
+                for j in range(n - (b - a) + 1):
+                    q = 0
+                    while q < b - a and _state_at(items, lo, hi, j + q, is_framed) == pattern_items[a + q]:
+                        q += 1
+                    if q == b - a:
+                        any_end = True
+                        break
+                if any_end:
+                    if rows >= out_pattern.shape[0]:
+                        out_pattern = _grow(out_pattern, rows + 1)
+                        out_sequence = _grow(out_sequence, rows + 1)
+                    out_pattern[rows] = p
+                    out_sequence[rows] = s
+                    rows += 1
+                continue
             for j in range(n):
                 reach[j] = _state_at(items, lo, hi, j, is_framed) == pattern_items[a]
                 any_end = any_end or reach[j]
