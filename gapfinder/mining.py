@@ -599,6 +599,57 @@ def _state_at(items: np.ndarray, lo: int, hi: int, j: int, framed: bool) -> int:
 
 
 @njit(cache=True, nogil=True)
+def _contains_run(  # pragma: no cover - compiled
+    items: np.ndarray, lo: int, hi: int, n: int, pattern: np.ndarray, a: int, b: int, is_framed: bool
+) -> bool:
+    """Whether pattern[a:b] occurs contiguously in the sequence: compared at each start directly."""
+    for j in range(n - (b - a) + 1):
+        q = 0
+        while q < b - a and _state_at(items, lo, hi, j + q, is_framed) == pattern[a + q]:
+            q += 1
+        if q == b - a:
+            return True
+    return False
+
+
+@njit(cache=True, nogil=True)
+def _contains_in_order(  # pragma: no cover - compiled
+    items: np.ndarray,
+    lo: int,
+    hi: int,
+    n: int,
+    pattern: np.ndarray,
+    a: int,
+    b: int,
+    is_framed: bool,
+    gap: int,
+    reach: np.ndarray,
+    nxt: np.ndarray,
+) -> bool:
+    """Whether pattern[a:b] occurs in order with at most ``gap`` events between steps (any when
+    negative): one sweep per step over the positions each earlier step can reach."""
+    any_end = False
+    for j in range(n):
+        reach[j] = _state_at(items, lo, hi, j, is_framed) == pattern[a]
+        any_end = any_end or reach[j]
+    for q in range(a + 1, b):
+        if not any_end:
+            break
+        any_end = False
+        window = -1  # the last position from which the next step may still be reached
+        for j in range(n):
+            nxt[j] = False
+            if window >= j and _state_at(items, lo, hi, j, is_framed) == pattern[q]:
+                nxt[j] = True
+                any_end = True
+            if reach[j]:
+                window = n if gap < 0 else j + 1 + gap
+        for j in range(n):
+            reach[j] = nxt[j]
+    return any_end
+
+
+@njit(cache=True, nogil=True)
 def _match_kernel(  # pragma: no cover - compiled
     items: np.ndarray,
     starts: np.ndarray,
@@ -630,41 +681,10 @@ def _match_kernel(  # pragma: no cover - compiled
             n = hi - lo + (2 if is_framed else 0)
             if n < b - a:
                 continue
-            any_end = False
             if gap == 0:
-                # contiguous: compare the pattern at each start directly (no reachability sweep)
-                for j in range(n - (b - a) + 1):
-                    q = 0
-                    while q < b - a and _state_at(items, lo, hi, j + q, is_framed) == pattern_items[a + q]:
-                        q += 1
-                    if q == b - a:
-                        any_end = True
-                        break
-                if any_end:
-                    if rows >= out_pattern.shape[0]:
-                        out_pattern = _grow(out_pattern, rows + 1)
-                        out_sequence = _grow(out_sequence, rows + 1)
-                    out_pattern[rows] = p
-                    out_sequence[rows] = s
-                    rows += 1
-                continue
-            for j in range(n):
-                reach[j] = _state_at(items, lo, hi, j, is_framed) == pattern_items[a]
-                any_end = any_end or reach[j]
-            for q in range(a + 1, b):
-                if not any_end:
-                    break
-                any_end = False
-                window = -1  # the last position from which the next step may still be reached
-                for j in range(n):
-                    nxt[j] = False
-                    if window >= j and _state_at(items, lo, hi, j, is_framed) == pattern_items[q]:
-                        nxt[j] = True
-                        any_end = True
-                    if reach[j]:
-                        window = n if gap < 0 else j + 1 + gap
-                for j in range(n):
-                    reach[j] = nxt[j]
+                any_end = _contains_run(items, lo, hi, n, pattern_items, a, b, is_framed)
+            else:
+                any_end = _contains_in_order(items, lo, hi, n, pattern_items, a, b, is_framed, gap, reach, nxt)
             if any_end:
                 if rows >= out_pattern.shape[0]:
                     out_pattern = _grow(out_pattern, rows + 1)
