@@ -16,23 +16,23 @@ windows AS (
         sessions,
         list_concat(
             list_transform(range(2, len(p)), lambda i: (1::UBIGINT << 60) | p[i]),
-            list_transform(range(1, len(p)), lambda i: (2::UBIGINT << 60) | (p[i] << $bits) | p[i + 1]),
+            list_transform(range(1, len(p)), lambda i: (2::UBIGINT << 60) | (p[i] << $bits::UBIGINT) | p[i + 1]),
             CASE WHEN $max_k >= 3 THEN list_transform(range(1, len(p) - 1), lambda i:
-                (3::UBIGINT << 60) | (p[i] << (2 * $bits)) | (p[i + 1] << $bits) | p[i + 2]) END,
+                (3::UBIGINT << 60) | (p[i] << (2 * $bits::UBIGINT)) | (p[i + 1] << $bits::UBIGINT) | p[i + 2]) END,
             CASE WHEN $max_k >= 4 THEN list_transform(range(1, len(p) - 2), lambda i:
-                (4::UBIGINT << 60) | (p[i] << (3 * $bits)) | (p[i + 1] << (2 * $bits))
-                | (p[i + 2] << $bits) | p[i + 3]) END,
+                (4::UBIGINT << 60) | (p[i] << (3 * $bits::UBIGINT)) | (p[i + 1] << (2 * $bits::UBIGINT))
+                | (p[i + 2] << $bits::UBIGINT) | p[i + 3]) END,
             CASE WHEN $max_k >= 5 THEN list_transform(range(1, len(p) - 3), lambda i:
-                (5::UBIGINT << 60) | (p[i] << (4 * $bits)) | (p[i + 1] << (3 * $bits))
-                | (p[i + 2] << (2 * $bits)) | (p[i + 3] << $bits) | p[i + 4]) END,
+                (5::UBIGINT << 60) | (p[i] << (4 * $bits::UBIGINT)) | (p[i + 1] << (3 * $bits::UBIGINT))
+                | (p[i + 2] << (2 * $bits::UBIGINT)) | (p[i + 3] << $bits::UBIGINT) | p[i + 4]) END,
             CASE WHEN $max_k >= 6 THEN list_transform(range(1, len(p) - 4), lambda i:
-                (6::UBIGINT << 60) | (p[i] << (5 * $bits)) | (p[i + 1] << (4 * $bits))
-                | (p[i + 2] << (3 * $bits)) | (p[i + 3] << (2 * $bits)) | (p[i + 4] << $bits)
+                (6::UBIGINT << 60) | (p[i] << (5 * $bits::UBIGINT)) | (p[i + 1] << (4 * $bits::UBIGINT))
+                | (p[i + 2] << (3 * $bits::UBIGINT)) | (p[i + 3] << (2 * $bits::UBIGINT)) | (p[i + 4] << $bits::UBIGINT)
                 | p[i + 5]) END,
             CASE WHEN $max_k >= 7 THEN list_transform(range(1, len(p) - 5), lambda i:
-                (7::UBIGINT << 60) | (p[i] << (6 * $bits)) | (p[i + 1] << (5 * $bits))
-                | (p[i + 2] << (4 * $bits)) | (p[i + 3] << (3 * $bits)) | (p[i + 4] << (2 * $bits))
-                | (p[i + 5] << $bits) | p[i + 6]) END
+                (7::UBIGINT << 60) | (p[i] << (6 * $bits::UBIGINT)) | (p[i + 1] << (5 * $bits::UBIGINT))
+                | (p[i + 2] << (4 * $bits::UBIGINT)) | (p[i + 3] << (3 * $bits::UBIGINT)) | (p[i + 4] << (2 * $bits::UBIGINT))
+                | (p[i + 5] << $bits::UBIGINT) | p[i + 6]) END
         ) AS codes
     FROM framed
 )
