@@ -32,6 +32,7 @@ __all__ = [
     "connect_memory",
     "default_memory_limit",
     "engine_settings",
+    "memory_limit_share",
     "stage_clock",
     "use_engine",
 ]
@@ -77,6 +78,11 @@ _MIN_MEMORY = 64 * 1024**2
 def _memory_literal(memory_limit: str) -> str:
     """A size literal DuckDB accepts, of at least 64 MiB; only digits and a unit are let through."""
     literal = memory_limit.strip().upper().replace(" ", "")
+    _memory_bytes(memory_limit, literal)
+    return literal
+
+
+def _memory_bytes(memory_limit: str, literal: str) -> int:
     digits = literal.rstrip("KMGTIB")
     unit = literal[len(digits) :]
     if not digits.isdigit() or unit not in _UNITS:
@@ -85,7 +91,16 @@ def _memory_literal(memory_limit: str) -> str:
     size = int(digits) * (1024 if "I" in unit else 1000) ** power
     if size < _MIN_MEMORY:
         raise ConfigError(f"--memory-limit {memory_limit!r}: give at least 64MiB")
-    return literal
+    return size
+
+
+def memory_limit_share(share: float) -> str:
+    """``share`` of the memory limit connections get now (``engine_settings``), as a size literal of
+    at least 64 MiB: for stages that hold large arrays in Python beside DuckDB, so that the two
+    together stay near the limit the user gave."""
+    literal = _memory_literal(engine_settings()["memory_limit"])
+    size = _memory_bytes(literal, literal)
+    return f"{max(int(size * share), _MIN_MEMORY) // 1024**2}MiB"
 
 
 def use_engine(**settings: Any) -> None:

@@ -117,3 +117,17 @@ def test_runs_record_the_whole_stage(profiled: Path, monkeypatch: pytest.MonkeyP
         patterns.mine_workspace(ws, patterns.MiningOptions(min_support=0.01))
         seconds = ws.con.execute("SELECT seconds FROM runs WHERE stage = 'patterns'").fetchall()[-1][0]
     assert seconds >= 0.3
+
+
+def test_a_share_of_the_memory_limit_follows_the_limit_connections_get() -> None:
+    from gapfinder.workspace import memory_limit_share, use_engine
+
+    try:
+        use_engine(memory_limit="2000MiB")
+        assert memory_limit_share(0.6) == "1200MiB"
+        use_engine(memory_limit="1GB")
+        assert memory_limit_share(0.5) == "476MiB"  # 500,000,000 bytes
+        use_engine(memory_limit="100MB")
+        assert memory_limit_share(0.1) == "64MiB"  # never under DuckDB's useful minimum
+    finally:
+        use_engine(memory_limit=None)
