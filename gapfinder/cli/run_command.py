@@ -49,7 +49,8 @@ def run_all(
     of `suite` (steps map, aliases, tags, outcomes, test-run telemetry; `--trace-map` maps trace
     table columns). Writes OUT/workspace.duckdb, OUT/summary.md, OUT/gapfinder_plan.json and .csv,
     and skeletons under OUT/pytest/ and OUT/gherkin/. Steps already implemented in
-    OUT/pytest/gapfinder_steps.py are kept.
+    OUT/pytest/gapfinder_steps.py are kept. After profiling, DuckDB gets 60 % of the memory limit,
+    leaving room for the arrays gap evidence holds in Python.
     """
     from gapfinder.pipeline import run_pipeline
     from gapfinder.plan import PlanOptions
