@@ -119,26 +119,46 @@ def build_sessions(
 ) -> None:
     """Write features, users, automated_users, full_paths and sessions from ``mapped_source``.
 
-    One window pass over the events forms the sessions; everything after works on sessions.
+    Two passes over the events: one for the dictionaries (event names; outcome, app version and
+    platform), one that groups each user's events into a sorted list of integer keys, from which
+    the sessions are cut. Everything after works on sessions.
     """
     noise = list(options.drop_events)
-    run(con, "create_features", noise_events=noise)
+    error_outcomes = [o.lower() for o in options.error_outcomes]
+    run(con, "create_event_vocabulary", noise_events=noise)
+    run(con, "create_features")
     feature_count = run(con, "count_features").fetchall()
     check_feature_count(int(feature_count[0][0]) if feature_count else 0)
-    run(con, "create_user_keys", noise_events=noise)
     inner, outer = hmac_pads(pseudonymize_key) if pseudonymize_key else (None, None)
-    run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
-    shared = {
-        "collapse_repeats": options.collapse_repeats,
-        "max_events": options.max_events,
-        "noise_events": noise,
-        "error_outcomes": [o.lower() for o in options.error_outcomes],
-    }
     if use_session_column:
-        run(con, "create_raw_sessions_by_session_column", **shared)
+        run(con, "drop_event_vocabulary")
+        run(con, "create_user_keys", noise_events=noise)
+        run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
+        run(
+            con,
+            "create_raw_sessions_by_session_column",
+            collapse_repeats=options.collapse_repeats,
+            max_events=options.max_events,
+            noise_events=noise,
+            error_outcomes=error_outcomes,
+        )
     else:
-        idle_us = round(options.idle_minutes * 60 * 1_000_000)
-        run(con, "create_raw_sessions_by_idle_gap", idle_us=idle_us, **shared)
+        # One pass groups each user's events into a sorted list of integer keys; the user keys come
+        # from those lists and the sessions are cut from them, so no sort of every event row is needed.
+        run(con, "create_event_attributes", error_outcomes=error_outcomes)
+        run(con, "drop_event_vocabulary")
+        run(con, "create_user_event_lists", noise_events=noise)
+        run(con, "create_user_keys_from_event_lists")
+        run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
+        run(
+            con,
+            "create_raw_sessions_by_idle_gap",
+            idle_us=round(options.idle_minutes * 60 * 1_000_000),
+            collapse_repeats=options.collapse_repeats,
+            max_events=options.max_events,
+        )
+        run(con, "drop_user_event_lists")
+        run(con, "drop_event_attributes")
     finish_sessions(con, options=options, include_automated=include_automated)
 
 

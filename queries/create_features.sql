@@ -1,16 +1,10 @@
 -- Creates the features table: the event dictionary. START is 0 and END is 1; real events follow
 -- in alphabetical order from 2, so integer order equals name order (used to break timestamp ties).
--- Reads the temporary view mapped_source (usable rows only).
--- Parameters: $noise_events (list of event names dropped on request).
+-- Reads the temporary table event_vocabulary (usable rows only). Parameters: none.
 CREATE OR REPLACE TABLE features AS
 SELECT 0 AS event_id, 'START' AS event
 UNION ALL
 SELECT 1 AS event_id, 'END' AS event
 UNION ALL
 SELECT (row_number() OVER (ORDER BY event) + 1)::INTEGER AS event_id, event
-FROM (
-    SELECT DISTINCT trim(event) AS event
-    FROM mapped_source
-    WHERE user_id IS NOT NULL AND trim(user_id) <> '' AND ts IS NOT NULL
-      AND event IS NOT NULL AND trim(event) <> '' AND NOT list_contains($noise_events, trim(event))
-);
+FROM (SELECT DISTINCT event FROM event_vocabulary);

@@ -1,77 +1,50 @@
 -- Creates the temporary table raw_sessions: one row per session, formed by splitting each user's
 -- events where the gap since the previous event exceeds $idle_us microseconds (a gap exactly
--- equal stays in the session). Events with equal timestamps are ordered by event name, then
--- outcome, app version and platform (rows equal in all of these are interchangeable), so results do not depend on file order. Each session gets its ordered path of event
--- ids (cut at $max_events when that is positive), the positions in it (from 1) whose event failed,
--- counts, errors, time span (first to last event, a dropped repeat included) and the segment
--- values at its first event. With $collapse_repeats an event equal to the one before it in the same
--- session is dropped from the path and the counts.
--- One window sort by user and time numbers each user's events and marks where sessions start and
--- end; each user's events are then packed into one sorted list of
--- (position << 19 | dropped << 18 | starts << 17 | failed << 16 | event id) integers, which list
--- functions cut into sessions (a position is the event's place among its user's events, so a
--- session is one slice). Features are limited to 65,534 for this reason.
--- Reads mapped_source, features, user_keys.
--- Parameters: $idle_us, $collapse_repeats, $max_events, $noise_events, $error_outcomes.
+-- equal stays in the session). Each user's events arrive as one sorted list of keys
+-- (user_event_lists: time, then event name, outcome, app version and platform, so results do not
+-- depend on file order). Session starts are the positions whose gap to the previous event exceeds
+-- the threshold; the events are repacked as
+-- (position << 19 | dropped << 18 | failed << 16 | event id) integers (position: the event's place
+-- among its user's events, so a session is one slice; dropped: a repeat of the event before it in
+-- the same session under $collapse_repeats, never a session's first event), which list functions
+-- cut into sessions. Each session gets its ordered path of event ids (cut at $max_events when that
+-- is positive), the positions in it (from 1) whose event failed, counts, errors, time span (first
+-- to last event, a dropped repeat included) and the app version and platform of its first event.
+-- Features are limited to 65,534 because of the packing.
+-- Reads user_event_lists, user_keys, event_attributes.
+-- Parameters: $idle_us, $collapse_repeats, $max_events.
 CREATE OR REPLACE TEMP TABLE raw_sessions AS
-WITH encoded AS (
+WITH per_user AS (
     SELECT
         u.user_key,
-        f.event_id,
-        s.ts,
-        s.outcome,
-        coalesce(list_contains($error_outcomes, lower(trim(s.outcome))), false) AS is_error,
-        s.app_version,
-        s.platform
-    FROM mapped_source AS s
-    JOIN user_keys AS u ON u.user_id = trim(s.user_id)
-    JOIN features AS f ON f.event = trim(s.event) AND f.event_id >= 2
-    WHERE s.ts IS NOT NULL AND NOT list_contains($noise_events, trim(s.event))
-),
-ordered AS (
-    SELECT
-        user_key,
-        ts,
-        app_version,
-        platform,
-        row_number() OVER w AS seq,
-        CASE
-            WHEN lag(ts) OVER w IS NULL THEN 1
-            WHEN epoch_us(ts) - epoch_us(lag(ts) OVER w) > $idle_us THEN 1
-            ELSE 0
-        END AS is_start,
-        CASE
-            WHEN lead(ts) OVER w IS NULL THEN 1
-            WHEN epoch_us(lead(ts) OVER w) - epoch_us(ts) > $idle_us THEN 1
-            ELSE 0
-        END AS is_end,
-        (row_number() OVER w << 19)
-            | (CASE WHEN $collapse_repeats AND event_id = lag(event_id) OVER w THEN 1 ELSE 0 END << 18)
-            | (is_error::BIGINT << 16)
-            | event_id AS packed_no_start
-    FROM encoded
-    WINDOW w AS (PARTITION BY user_key ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
-        platform NULLS FIRST)
-),
-per_user AS (
-    SELECT
-        user_key,
-        list_sort(list(packed_no_start | (is_start << 17))) AS packed,
-        list_sort(list({'seq': seq, 'ts': ts, 'app_version': app_version, 'platform': platform})
-            FILTER (WHERE is_start = 1)) AS starts,
-        list_sort(list({'seq': seq, 'ts': ts}) FILTER (WHERE is_end = 1)) AS ends
-    FROM ordered
-    GROUP BY user_key
+        e.events,
+        list_filter(
+            generate_series(1, len(e.events)),
+            lambda i: i = 1 OR (e.events[i] >> 48) - (e.events[i - 1] >> 48) > $idle_us
+        ) AS starts,
+        list_transform(
+            e.events,
+            lambda x, i: ((i::BIGINT << 19)
+                | (CASE
+                    WHEN $collapse_repeats AND i > 1 AND (x >> 32) & 65535 = (e.events[i - 1] >> 32) & 65535
+                        AND (x >> 48) - (e.events[i - 1] >> 48) <= $idle_us THEN 1
+                    ELSE 0
+                END << 18)
+                | ((x & 1) << 16)
+                | ((x >> 32) & 65535))::BIGINT
+        ) AS packed
+    FROM user_event_lists AS e
+    JOIN user_keys AS u USING (user_id)
 ),
 cut AS (
     SELECT
         user_key,
         generate_series(1, len(starts)) AS session_numbers,
-        starts,
-        ends,
+        list_transform(starts, lambda s: events[s]) AS firsts,
+        list_transform(starts, lambda s, j: events[coalesce(starts[j + 1] - 1, len(events))]) AS lasts,
         list_transform(
-            generate_series(1, len(starts)),
-            lambda j: list_filter(packed[starts[j].seq:ends[j].seq], lambda x: ((x >> 18) & 1 = 0) OR ((x >> 17) & 1 = 1))
+            starts,
+            lambda s, j: list_filter(packed[s:coalesce(starts[j + 1] - 1, len(packed))], lambda x: (x >> 18) & 1 = 0)
         ) AS slices
     FROM per_user
 ),
@@ -79,30 +52,31 @@ sessions AS (
     SELECT
         user_key,
         unnest(session_numbers) AS session_no,
-        unnest(starts) AS first_event,
-        unnest(ends) AS last_event,
+        unnest(firsts) AS first_key,
+        unnest(lasts) AS last_key,
         unnest(slices) AS kept
     FROM cut
 )
 SELECT
-    user_key,
-    session_no::INTEGER AS session_no,
-    first_event.ts AS started_at,
-    last_event.ts AS ended_at,
-    len(kept)::INTEGER AS event_count,
-    len(list_filter(kept, lambda x: (x >> 16) & 1 = 1))::INTEGER AS error_count,
+    s.user_key,
+    s.session_no::INTEGER AS session_no,
+    make_timestamp(((s.first_key >> 48) - 9223372036854775808)::BIGINT)::TIMESTAMPTZ AS started_at,
+    make_timestamp(((s.last_key >> 48) - 9223372036854775808)::BIGINT)::TIMESTAMPTZ AS ended_at,
+    len(s.kept)::INTEGER AS event_count,
+    len(list_filter(s.kept, lambda x: (x >> 16) & 1 = 1))::INTEGER AS error_count,
     list_transform(
-        CASE WHEN $max_events > 0 THEN kept[1:$max_events] ELSE kept END,
+        CASE WHEN $max_events > 0 THEN s.kept[1:$max_events] ELSE s.kept END,
         lambda x: (x & 65535)::INTEGER
     ) AS path,
     list_filter(
         list_transform(
-            CASE WHEN $max_events > 0 THEN kept[1:$max_events] ELSE kept END,
+            CASE WHEN $max_events > 0 THEN s.kept[1:$max_events] ELSE s.kept END,
             lambda x, i: CASE WHEN (x >> 16) & 1 = 1 THEN i ELSE 0 END
         ),
         lambda i: i > 0
     )::INTEGER[] AS error_positions,
-    ($max_events > 0 AND len(kept) > $max_events) AS is_truncated,
-    first_event.app_version AS app_version,
-    first_event.platform AS platform
-FROM sessions;
+    ($max_events > 0 AND len(s.kept) > $max_events) AS is_truncated,
+    a.app_version,
+    a.platform
+FROM sessions AS s
+JOIN event_attributes AS a ON a.attributes_id = ((s.first_key >> 1) & 2147483647)::INTEGER;

@@ -117,3 +117,55 @@ def test_automated_user_is_flagged_and_kept_apart(tmp_path: Path) -> None:
     assert summary["sessions"]["users"] == 40
     assert summary["sessions"]["count"] == 80
     assert "events per session" in " ".join(automated["accounts"][0]["reasons"])
+
+
+def test_session_times_are_exact_at_the_ends_of_the_accepted_range(tmp_path: Path) -> None:
+    """Event keys pack microseconds since 1970 with the event id and attributes below them; times
+    at both ends of the accepted range (1990-2099) come back to the microsecond and still split at
+    the idle gap."""
+    from datetime import UTC, datetime, timedelta
+
+    before = datetime(1990, 1, 1, 0, 0, 0, 1, tzinfo=UTC)
+    far = datetime(2099, 12, 31, 23, 0, 0, 999_999, tzinfo=UTC)
+    rows = [
+        ("ann", before, "a"),
+        ("ann", before + timedelta(microseconds=2), "b"),
+        ("ann", far, "c"),
+        ("ann", far + timedelta(seconds=60), "d"),
+    ]
+    ws = tmp_path / "ws.duckdb"
+    options = ProfileOptions(sessions=SessionOptions(idle_minutes=IDLE_MINUTES, flag_automated=False))
+    profile_telemetry([write_events(tmp_path / "e.parquet", rows)], ws, options, min_users=1)
+    con = duckdb.connect(str(ws), read_only=True)
+    spans = con.execute("SELECT started_at, ended_at FROM sessions ORDER BY session_no").fetchall()
+    con.close()
+    assert spans == [(before, before + timedelta(microseconds=2)), (far, far + timedelta(seconds=60))]
+    assert gapfinder_sessions(ws) == Counter({("ann", ("a", "b")): 1, ("ann", ("c", "d")): 1})
+
+
+def test_equal_timestamps_are_ordered_by_name_then_outcome_version_platform(tmp_path: Path) -> None:
+    """Ties are broken by event name, then outcome, app version and platform (NULLs first), so the
+    session's first event, its segments and its error positions do not depend on file order."""
+    rows = [
+        ("ann", at(0), "b", "ok", "2.0", "web"),
+        ("ann", at(0), "a", "ok", "1.0", "web"),
+        ("ann", at(0), "a", "error", "2.0", "ios"),
+        ("ann", at(0), "a", "error", "1.0", "web"),
+        ("ann", at(5), "c", None, None, None),
+    ]
+    names = ("user_id", "ts", "event", "outcome", "app_version", "platform")
+    firsts = []
+    for order in (rows, rows[::-1]):
+        ws = tmp_path / f"ws{len(firsts)}.duckdb"
+        path = write_events(tmp_path / f"e{len(firsts)}.parquet", order, names)
+        options = ProfileOptions(
+            mapping={"outcome": "outcome", "app_version": "app_version", "platform": "platform"},
+            sessions=SessionOptions(collapse_repeats=False, flag_automated=False),
+        )
+        profile_telemetry([path], ws, options, min_users=1)
+        con = duckdb.connect(str(ws), read_only=True)
+        query = "SELECT app_version, platform, error_positions, event_count FROM sessions"
+        firsts.append(con.execute(query).fetchall())
+        con.close()
+    # "a"/"error" sorts before "a"/"ok"; among the errors app version "1.0" before "2.0".
+    assert firsts[0] == firsts[1] == [("1.0", "web", [1, 2], 5)]

@@ -1,0 +1,27 @@
+-- Creates the temporary table user_event_lists: one row per user id (trimmed) holding all of the
+-- user's usable events as one sorted list of HUGEINT keys
+-- (epoch microseconds + 2^63) << 48 | event id << 32 | attributes id << 1 | is error,
+-- so the sorted list orders events by time, then event name (ids follow names), then outcome, app
+-- version and platform (event_attributes is numbered in that order); events equal in all of these
+-- are interchangeable, so results do not depend on file order. A hash group by user and a sort of
+-- each user's list replace a window sort of every event row with its strings.
+-- Reads the temporary view mapped_source, features, event_attributes.
+-- Parameters: $noise_events (list of event names dropped on request).
+CREATE OR REPLACE TEMP TABLE user_event_lists AS
+SELECT
+    trim(s.user_id) AS user_id,
+    list_sort(list(
+        (epoch_us(s.ts)::HUGEINT + 9223372036854775808) * 281474976710656
+        + f.event_id * 4294967296
+        + a.attributes_id * 2
+        + a.is_error::INTEGER
+    )) AS events
+FROM mapped_source AS s
+JOIN features AS f ON f.event = trim(s.event) AND f.event_id >= 2
+JOIN event_attributes AS a
+    ON a.outcome IS NOT DISTINCT FROM s.outcome
+    AND a.app_version IS NOT DISTINCT FROM s.app_version
+    AND a.platform IS NOT DISTINCT FROM s.platform
+WHERE s.user_id IS NOT NULL AND trim(s.user_id) <> '' AND s.ts IS NOT NULL
+  AND NOT list_contains($noise_events, trim(s.event))
+GROUP BY trim(s.user_id);
