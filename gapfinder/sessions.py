@@ -16,7 +16,7 @@ import duckdb
 
 from gapfinder.errors import ConfigError, InputError
 from gapfinder.privacy import hmac_pads
-from gapfinder.sql import fetch_dicts, run
+from gapfinder.sql import fetch_dicts, first_row, run
 
 __all__ = [
     "DEFAULT_ERROR_OUTCOMES",
@@ -105,8 +105,10 @@ class SourceRowCounts:
 
 
 def count_source_rows(con: duckdb.DuckDBPyConnection, options: SessionOptions) -> SourceRowCounts:
-    """Count source rows per rejection reason (one scan of ``mapped_source``)."""
-    return SourceRowCounts.from_rows(fetch_dicts(con, "count_source_rows", noise_events=list(options.drop_events)))
+    """Count source rows per rejection reason. One scan of ``mapped_source`` writes the temporary
+    ``source_digest``, which ``build_sessions`` then reads its event vocabulary from."""
+    run(con, "create_source_digest", noise_events=list(options.drop_events))
+    return SourceRowCounts.from_rows(fetch_dicts(con, "count_source_rows"))
 
 
 def build_sessions(
@@ -119,13 +121,17 @@ def build_sessions(
 ) -> None:
     """Write features, users, automated_users, full_paths and sessions from ``mapped_source``.
 
-    Two passes over the events: one for the dictionaries (event names; outcome, app version and
-    platform), one that groups each user's events into a sorted list of integer keys, from which
-    the sessions are cut. Everything after works on sessions.
+    One pass over the events groups each user's events into a sorted list of integer keys, from
+    which the sessions are cut; the dictionaries (event names; outcome, app version and platform)
+    come from the ``source_digest`` that ``count_source_rows`` wrote (made here when it did not
+    run). Everything after works on sessions.
     """
     noise = list(options.drop_events)
     error_outcomes = [o.lower() for o in options.error_outcomes]
-    run(con, "create_event_vocabulary", noise_events=noise)
+    if not first_row(run(con, "has_temp_table", name="source_digest"))[0]:
+        run(con, "create_source_digest", noise_events=noise)
+    run(con, "create_event_vocabulary")
+    run(con, "drop_source_digest")
     run(con, "create_features")
     feature_count = run(con, "count_features").fetchall()
     check_feature_count(int(feature_count[0][0]) if feature_count else 0)

@@ -1,28 +1,14 @@
 -- Returns one row per reason a source row cannot be used (reason NULL for usable rows), with how
 -- many rows had it, how many of them carried a timestamp without a time zone, how many were noise
--- events dropped on request, and the time range of the usable rows.
--- Reads the temporary view mapped_source. Parameters: $noise_events (list of event names to drop).
-WITH classified AS (
-    SELECT
-        CASE
-            WHEN user_id IS NULL OR trim(user_id) = '' THEN 'missing user id'
-            WHEN NOT has_raw_ts THEN 'missing timestamp'
-            WHEN is_ts_outside_window THEN 'timestamp outside 1990-2099'
-            WHEN ts IS NULL THEN 'unparsable timestamp'
-            WHEN event IS NULL OR trim(event) = '' THEN 'missing event'
-        END AS reason,
-        is_naive_ts,
-        list_contains($noise_events, event) AS is_noise,
-        ts
-    FROM mapped_source
-)
+-- events dropped on request (names compared trimmed, as sessions drop them), and the time range.
+-- Reads the temporary table source_digest. Parameters: none.
 SELECT
     reason,
-    count(*) AS row_count,
-    count(*) FILTER (WHERE is_naive_ts) AS naive_ts_count,
-    count(*) FILTER (WHERE is_noise) AS noise_count,
-    min(ts) AS first_ts,
-    max(ts) AS last_ts
-FROM classified
+    sum(row_count)::BIGINT AS row_count,
+    sum(naive_ts_count)::BIGINT AS naive_ts_count,
+    coalesce(sum(row_count) FILTER (WHERE is_noise), 0)::BIGINT AS noise_count,
+    min(first_ts) AS first_ts,
+    max(last_ts) AS last_ts
+FROM source_digest
 GROUP BY reason
 ORDER BY reason NULLS FIRST;

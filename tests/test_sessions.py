@@ -169,3 +169,13 @@ def test_equal_timestamps_are_ordered_by_name_then_outcome_version_platform(tmp_
         con.close()
     # "a"/"error" sorts before "a"/"ok"; among the errors app version "1.0" before "2.0".
     assert firsts[0] == firsts[1] == [("1.0", "web", [1, 2], 5)]
+
+
+def test_noise_is_counted_as_it_is_dropped_with_padding_trimmed(tmp_path: Path) -> None:
+    """Names are trimmed before they are compared with --drop, both for the count and the sessions."""
+    rows = [("ann", at(0), "a"), ("ann", at(1), " ping "), ("ann", at(2), "ping"), ("ann", at(3), "b")]
+    ws = tmp_path / "ws.duckdb"
+    options = ProfileOptions(sessions=SessionOptions(drop_events=("ping",), flag_automated=False))
+    summary = profile_telemetry([write_events(tmp_path / "e.parquet", rows)], ws, options, min_users=1)
+    assert gapfinder_sessions(ws) == Counter({("ann", ("a", "b")): 1})
+    assert summary["reading"]["noise_dropped"] == 2

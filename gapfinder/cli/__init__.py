@@ -112,7 +112,7 @@ def workspace_option(func: F) -> F:
         metavar="SIZE",
         expose_value=False,
         callback=_set_engine,
-        help="DuckDB memory limit, e.g. 2GB (default: 60 % of memory, at most 2.5 GiB); more spills to disk.",
+        help="DuckDB memory limit, e.g. 2GB (default: 60 % of memory, at most 2.25 GiB); more spills to disk.",
     )(func)
     func = click.option(
         "--threads",

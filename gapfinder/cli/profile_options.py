@@ -148,7 +148,7 @@ def profile_options(func: F) -> F:
         click.option(
             "--memory-limit",
             metavar="SIZE",
-            help="DuckDB memory limit, e.g. 2GB (default: 60 % of memory, at most 2.5 GiB); more spills to disk.",
+            help="DuckDB memory limit, e.g. 2GB (default: 60 % of memory, at most 2.25 GiB); more spills to disk.",
         ),
         click.option(
             "--engine",

@@ -1,6 +1,6 @@
 -- Returns one row per reason a source row cannot be used (reason NULL for usable rows), with how
 -- many rows had it, how many carried a timestamp without a time zone, how many were noise events
--- dropped on request, and the time range of the usable rows (in microseconds since the epoch): the Spark SQL twin of
+-- dropped on request (names compared trimmed), and the time range of the usable rows (in microseconds since the epoch): the Spark SQL twin of
 -- queries/count_source_rows.sql. Reads the temporary view mapped_source.
 -- Parameters: :noise_events (ARRAY<STRING> of event names to drop).
 WITH classified AS (
@@ -13,7 +13,7 @@ WITH classified AS (
             WHEN event IS NULL OR trim(event) = '' THEN 'missing event'
         END AS reason,
         is_naive_ts,
-        coalesce(array_contains(CAST(:noise_events AS ARRAY<STRING>), event), false) AS is_noise,
+        coalesce(array_contains(CAST(:noise_events AS ARRAY<STRING>), trim(event)), false) AS is_noise,
         ts
     FROM mapped_source
 )
