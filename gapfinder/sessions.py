@@ -136,23 +136,24 @@ def build_sessions(
     feature_count = run(con, "count_features").fetchall()
     check_feature_count(int(feature_count[0][0]) if feature_count else 0)
     inner, outer = hmac_pads(pseudonymize_key) if pseudonymize_key else (None, None)
+    # One pass groups the events into sorted lists of integer keys (per session with a session
+    # column, else per user); the user keys come from those lists and the sessions are cut from
+    # them, so no sort of every event row is needed.
+    run(con, "create_event_attributes", error_outcomes=error_outcomes)
+    run(con, "drop_event_vocabulary")
     if use_session_column:
-        run(con, "drop_event_vocabulary")
-        run(con, "create_user_keys", noise_events=noise)
+        run(con, "create_session_event_lists", noise_events=noise)
+        run(con, "create_user_keys_from_session_lists")
         run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
         run(
             con,
             "create_raw_sessions_by_session_column",
             collapse_repeats=options.collapse_repeats,
             max_events=options.max_events,
-            noise_events=noise,
-            error_outcomes=error_outcomes,
         )
+        run(con, "drop_session_event_lists")
+        run(con, "drop_event_attributes")
     else:
-        # One pass groups each user's events into a sorted list of integer keys; the user keys come
-        # from those lists and the sessions are cut from them, so no sort of every event row is needed.
-        run(con, "create_event_attributes", error_outcomes=error_outcomes)
-        run(con, "drop_event_vocabulary")
         run(con, "create_user_event_lists", noise_events=noise)
         run(con, "create_user_keys_from_event_lists")
         run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)

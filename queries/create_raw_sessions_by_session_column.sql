@@ -1,67 +1,52 @@
 -- Creates the temporary table raw_sessions from the input's own session column: sessions are the
--- distinct (user, session id) pairs, numbered within the user in order of their first event;
--- events are ordered by timestamp, event name, outcome, app version, platform. Same columns and options as
--- create_raw_sessions_by_idle_gap.sql. Reads mapped_source, features, user_keys.
--- Parameters: $collapse_repeats, $max_events, $noise_events, $error_outcomes.
+-- distinct (user, session id) pairs, numbered within the user in order of their first event, then
+-- session id; events are ordered by timestamp, event name, outcome, app version, platform (the
+-- sorted keys of session_event_lists). With $collapse_repeats an event equal to the one before it
+-- in the session is dropped from the path, the counts and the time span (first to last kept
+-- event). Same columns and options as create_raw_sessions_by_idle_gap.sql.
+-- Reads session_event_lists, user_keys, event_attributes.
+-- Parameters: $collapse_repeats, $max_events.
 CREATE OR REPLACE TEMP TABLE raw_sessions AS
-WITH encoded AS (
+WITH kept_keys AS (
     SELECT
         u.user_key,
-        coalesce(s.session_id, '') AS session_id,
-        f.event_id,
-        s.ts,
-        s.outcome,
-        coalesce(list_contains($error_outcomes, lower(trim(s.outcome))), false) AS is_error,
-        s.app_version,
-        s.platform
-    FROM mapped_source AS s
-    JOIN user_keys AS u ON u.user_id = trim(s.user_id)
-    JOIN features AS f ON f.event = trim(s.event) AND f.event_id >= 2
-    WHERE s.ts IS NOT NULL AND NOT list_contains($noise_events, trim(s.event))
+        e.session_id,
+        list_filter(
+            e.events,
+            lambda x, i: NOT ($collapse_repeats AND i > 1 AND (x >> 32) & 65535 = (e.events[i - 1] >> 32) & 65535)
+        ) AS events
+    FROM session_event_lists AS e
+    JOIN user_keys AS u USING (user_id)
 ),
-ordered AS (
-    SELECT
-        *,
-        row_number() OVER w AS seq,
-        lag(event_id) OVER w AS prev_event_id
-    FROM encoded
-    WINDOW w AS (PARTITION BY user_key, session_id ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
-        platform NULLS FIRST)
-),
-grouped AS (
+per_session AS (
     SELECT
         user_key,
         session_id,
-        min(ts) AS started_at,
-        max(ts) AS ended_at,
-        count(*)::INTEGER AS event_count,
-        count(*) FILTER (WHERE is_error)::INTEGER AS error_count,
-        list_sort(list((seq << 17) | (is_error::BIGINT << 16) | event_id)) AS packed,
-        any_value(app_version) FILTER (WHERE seq = 1) AS app_version,
-        any_value(platform) FILTER (WHERE seq = 1) AS platform
-    FROM ordered
-    WHERE NOT ($collapse_repeats AND prev_event_id IS NOT NULL AND event_id = prev_event_id)
-    GROUP BY user_key, session_id
+        events[1] AS first_key,
+        events[len(events)] AS last_key,
+        list_transform(events, lambda x: (((x & 1) << 16) | ((x >> 32) & 65535))::INTEGER) AS kept
+    FROM kept_keys
 )
 SELECT
-    user_key,
-    row_number() OVER (PARTITION BY user_key ORDER BY started_at, session_id)::INTEGER AS session_no,
-    started_at,
-    ended_at,
-    event_count,
-    error_count,
+    s.user_key,
+    row_number() OVER (PARTITION BY s.user_key ORDER BY s.first_key >> 48, s.session_id)::INTEGER AS session_no,
+    make_timestamp(((s.first_key >> 48) - 9223372036854775808)::BIGINT)::TIMESTAMPTZ AS started_at,
+    make_timestamp(((s.last_key >> 48) - 9223372036854775808)::BIGINT)::TIMESTAMPTZ AS ended_at,
+    len(s.kept)::INTEGER AS event_count,
+    len(list_filter(s.kept, lambda x: (x >> 16) & 1 = 1))::INTEGER AS error_count,
     list_transform(
-        CASE WHEN $max_events > 0 THEN packed[1:$max_events] ELSE packed END,
-        lambda x: (x & 65535)::INTEGER
+        CASE WHEN $max_events > 0 THEN s.kept[1:$max_events] ELSE s.kept END,
+        lambda x: x & 65535
     ) AS path,
     list_filter(
         list_transform(
-            CASE WHEN $max_events > 0 THEN packed[1:$max_events] ELSE packed END,
+            CASE WHEN $max_events > 0 THEN s.kept[1:$max_events] ELSE s.kept END,
             lambda x, i: CASE WHEN (x >> 16) & 1 = 1 THEN i ELSE 0 END
         ),
         lambda i: i > 0
     )::INTEGER[] AS error_positions,
-    ($max_events > 0 AND event_count > $max_events) AS is_truncated,
-    app_version,
-    platform
-FROM grouped;
+    ($max_events > 0 AND len(s.kept) > $max_events) AS is_truncated,
+    a.app_version,
+    a.platform
+FROM per_session AS s
+JOIN event_attributes AS a ON a.attributes_id = ((s.first_key >> 1) & 2147483647)::INTEGER;

@@ -1,5 +1,5 @@
 -- Returns one integer key per distinct user id, numbered in id order (UTF-8 byte order, as in
--- DuckDB) so that keys equal those of queries/create_user_keys.sql. Reads the temporary view
+-- DuckDB) so that keys equal those of queries/create_user_keys_from_event_lists.sql. Reads the temporary view
 -- mapped_source. The numbering is one global sort of the distinct ids (not of the events).
 -- Parameters: :noise_events (ARRAY<STRING>).
 SELECT CAST(row_number() OVER (ORDER BY user_id) AS INT) AS user_key, user_id
