@@ -37,6 +37,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
+import numba
 import numpy as np
 from numba import njit
 
@@ -649,7 +650,10 @@ def _contains_in_order(  # pragma: no cover - compiled
     return any_end
 
 
-@njit(cache=True, nogil=True)
+MATCH_CHUNKS_PER_THREAD = 16  # candidate chunks per thread: small enough to balance uneven patterns
+
+
+@njit(cache=True, nogil=True, parallel=True)
 def _match_kernel(  # pragma: no cover - compiled
     items: np.ndarray,
     starts: np.ndarray,
@@ -659,40 +663,43 @@ def _match_kernel(  # pragma: no cover - compiled
     framed: np.ndarray,
     candidate_ptr: np.ndarray,
     candidates: np.ndarray,
+    chunk_count: int,
 ) -> tuple[np.ndarray, np.ndarray]:
     """(pattern index, sequence index) for every sequence that contains each pattern; pattern p is
-    tried only on ``candidates[candidate_ptr[p]:candidate_ptr[p + 1]]`` (ascending)."""
+    tried only on ``candidates[candidate_ptr[p]:candidate_ptr[p + 1]]`` (ascending).
+
+    The (pattern, candidate) pairs are cut into ``chunk_count`` equal chunks tested on all threads (each chunk with
+    its own scratch rows); every pair writes only its own flag, so the result is the same in any
+    order, pattern by pattern and candidates ascending."""
     seq_total = starts.shape[0] - 1
-    out_pattern = np.empty(1024, dtype=np.int64)
-    out_sequence = np.empty(1024, dtype=np.int64)
-    rows = 0
     longest = 2
     for s in range(seq_total):
         longest = max(longest, starts[s + 1] - starts[s] + 2)
-    reach = np.zeros(longest, dtype=np.bool_)
-    nxt = np.zeros(longest, dtype=np.bool_)
+    pair_total = candidates.shape[0]
+    pattern_of = np.empty(pair_total, dtype=np.int64)
     for p in range(pattern_starts.shape[0] - 1):
-        a, b = pattern_starts[p], pattern_starts[p + 1]
-        gap = pattern_gaps[p]
-        is_framed = framed[p]
-        for t in range(candidate_ptr[p], candidate_ptr[p + 1]):
+        pattern_of[candidate_ptr[p] : candidate_ptr[p + 1]] = p
+    hit = np.zeros(pair_total, dtype=np.bool_)
+    chunk_count = max(1, min(pair_total, chunk_count))
+    for c in numba.prange(chunk_count):
+        reach = np.zeros(longest, dtype=np.bool_)
+        nxt = np.zeros(longest, dtype=np.bool_)
+        for t in range(c * pair_total // chunk_count, (c + 1) * pair_total // chunk_count):
+            p = pattern_of[t]
+            a, b = pattern_starts[p], pattern_starts[p + 1]
+            gap = pattern_gaps[p]
+            is_framed = framed[p]
             s = candidates[t]
             lo, hi = starts[s], starts[s + 1]
             n = hi - lo + (2 if is_framed else 0)
             if n < b - a:
                 continue
             if gap == 0:
-                any_end = _contains_run(items, lo, hi, n, pattern_items, a, b, is_framed)
+                hit[t] = _contains_run(items, lo, hi, n, pattern_items, a, b, is_framed)
             else:
-                any_end = _contains_in_order(items, lo, hi, n, pattern_items, a, b, is_framed, gap, reach, nxt)
-            if any_end:
-                if rows >= out_pattern.shape[0]:
-                    out_pattern = _grow(out_pattern, rows + 1)
-                    out_sequence = _grow(out_sequence, rows + 1)
-                out_pattern[rows] = p
-                out_sequence[rows] = s
-                rows += 1
-    return out_pattern[:rows], out_sequence[:rows]
+                hit[t] = _contains_in_order(items, lo, hi, n, pattern_items, a, b, is_framed, gap, reach, nxt)
+    found = np.nonzero(hit)[0]
+    return pattern_of[found], candidates[found]
 
 
 def containing_sequences(
@@ -737,6 +744,7 @@ def containing_sequences(
         np.array(framed, dtype=np.bool_),
         candidate_ptr,
         candidates,
+        MATCH_CHUNKS_PER_THREAD * numba.get_num_threads(),
     )
     return result
 

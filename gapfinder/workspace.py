@@ -10,6 +10,7 @@ from __future__ import annotations
 import contextlib
 import json
 import os
+import sys
 import tempfile
 import time
 from collections.abc import Iterator
@@ -107,13 +108,21 @@ def memory_limit_share(share: float) -> str:
 def use_engine(**settings: Any) -> None:
     """Set this process's DuckDB ``threads`` and ``memory_limit`` for every connection opened from now
     on (the CLI calls it with a command's ``--threads`` and ``--memory-limit``); None restores the
-    default. Keys not given are left as they are."""
+    default. Keys not given are left as they are. ``threads`` also bounds the threads of the
+    compiled pattern matcher (numba), so ``--threads 1`` keeps the whole command on one core."""
     unknown = set(settings) - set(_ENGINE)
     if unknown:
         raise TypeError(f"use_engine: unknown setting {sorted(unknown)[0]!r}")
     if settings.get("memory_limit") is not None:
         _memory_literal(settings["memory_limit"])
     _ENGINE.update(settings)
+    # numba is imported only when a thread count is set (or was, and is now restored): importing it
+    # costs a fraction of a second that commands without patterns need not pay.
+    if "threads" in settings and (settings["threads"] or "numba" in sys.modules):
+        import numba
+
+        cores = int(numba.config.NUMBA_NUM_THREADS)  # type: ignore[attr-defined]
+        numba.set_num_threads(min(int(settings["threads"]), cores) if settings["threads"] else cores)
 
 
 def engine_settings() -> dict[str, Any]:

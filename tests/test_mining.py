@@ -108,6 +108,29 @@ def test_containing_sequences_equals_a_plain_check(engine: str, db: list[list[in
     assert got == want
 
 
+def test_parallel_matcher_gives_the_same_pairs_in_the_same_order_on_one_thread() -> None:
+    """The compiled matcher tests (pattern, candidate) chunks on all threads; the pairs it returns,
+    and their order (pattern by pattern, sequences ascending), must not depend on the thread count."""
+    from gapfinder.mining import containing_sequences
+    from gapfinder.workspace import use_engine
+
+    rng = np.random.default_rng(3)
+    db = SequenceDatabase.from_sequences([rng.integers(2, 9, size=rng.integers(1, 12)).tolist() for _ in range(3000)])
+    patterns = [tuple(rng.integers(2, 9, size=rng.integers(1, 4)).tolist()) for _ in range(60)]
+    gaps = [[None, 0, 1][i % 3] for i in range(60)]
+    framed = [i % 4 == 0 for i in range(60)]
+    everywhere = containing_sequences(db, patterns, max_gaps=gaps, framed=framed, engine="compiled")
+    try:
+        use_engine(threads=1)
+        one = containing_sequences(db, patterns, max_gaps=gaps, framed=framed, engine="compiled")
+    finally:
+        use_engine(threads=None)
+    assert len(everywhere[0]) > 1000
+    assert everywhere[0].tolist() == one[0].tolist() and everywhere[1].tolist() == one[1].tolist()
+    order = np.lexsort((everywhere[1], everywhere[0]))
+    assert (order == np.arange(len(order))).all()
+
+
 @settings(max_examples=150, deadline=None)
 @given(db=st.lists(st.lists(st.integers(0, 4), max_size=9), min_size=1, max_size=10), min_support=st.integers(1, 5))
 def test_frequent_and_closed_against_the_prefixspan_package(db: list[list[int]], min_support: int) -> None:
