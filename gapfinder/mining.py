@@ -31,9 +31,11 @@ closed-pattern definition).
 
 from __future__ import annotations
 
+import itertools
 import math
 import types
 from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -319,10 +321,14 @@ def _mine_kernel(  # pragma: no cover - compiled
     user_ptr: np.ndarray,
     user_ids: np.ndarray,
     user_count: int,
+    first_lo: int,
+    first_hi: int,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, int, bool]:
     """Depth-first pattern growth. Returns rows (events, length, support, users), the row count
     and whether ``max_rows`` stopped the search. With ``check_closure`` the children of patterns of
     ``max_length`` are also returned (users = -2) so that closure can be decided afterwards.
+    Only patterns whose first event id is in [first_lo, first_hi) are grown, so disjoint ranges
+    can be mined at the same time and their rows concatenated in range order.
     """
     seq_total = starts.shape[0] - 1
     depth_cap = max_length + 1
@@ -400,6 +406,8 @@ def _mine_kernel(  # pragma: no cover - compiled
             is_check_level = expand_length == max_length
             n = 0
             for x in range(item_count):
+                if expand_root and (x < first_lo or x >= first_hi):
+                    continue
                 if entry_count[x] > 0 and support[x] >= threshold:
                     child_item[level, n] = x
                     child_support[level, n] = support[x]
@@ -676,16 +684,16 @@ def _match_kernel(  # pragma: no cover - compiled
     for s in range(seq_total):
         longest = max(longest, starts[s + 1] - starts[s] + 2)
     pair_total = candidates.shape[0]
-    pattern_of = np.empty(pair_total, dtype=np.int64)
-    for p in range(pattern_starts.shape[0] - 1):
-        pattern_of[candidate_ptr[p] : candidate_ptr[p + 1]] = p
     hit = np.zeros(pair_total, dtype=np.bool_)
     chunk_count = max(1, min(pair_total, chunk_count))
     for c in numba.prange(chunk_count):
         reach = np.zeros(longest, dtype=np.bool_)
         nxt = np.zeros(longest, dtype=np.bool_)
-        for t in range(c * pair_total // chunk_count, (c + 1) * pair_total // chunk_count):
-            p = pattern_of[t]
+        first = c * pair_total // chunk_count
+        p = np.searchsorted(candidate_ptr, first, side="right") - 1
+        for t in range(first, (c + 1) * pair_total // chunk_count):
+            while t >= candidate_ptr[p + 1]:
+                p += 1
             a, b = pattern_starts[p], pattern_starts[p + 1]
             gap = pattern_gaps[p]
             is_framed = framed[p]
@@ -699,7 +707,7 @@ def _match_kernel(  # pragma: no cover - compiled
             else:
                 hit[t] = _contains_in_order(items, lo, hi, n, pattern_items, a, b, is_framed, gap, reach, nxt)
     found = np.nonzero(hit)[0]
-    return pattern_of[found], candidates[found]
+    return np.searchsorted(candidate_ptr, found, side="right") - 1, candidates[found]
 
 
 def containing_sequences(
@@ -821,6 +829,49 @@ def _sequence_of_position(db: SequenceDatabase) -> np.ndarray:
     return np.repeat(np.arange(db.sequence_count, dtype=_I32), lengths)
 
 
+PARALLEL_MIN_POSITIONS = 200_000  # events in distinct paths below which one thread mines alone
+FIRST_EVENT_RANGES_PER_THREAD = 8  # ranges of first events per thread: enough to even out the work
+
+
+def _first_event_ranges(db: SequenceDatabase, range_count: int) -> list[tuple[int, int]]:
+    """Contiguous ranges of first-event ids holding about equal shares of the events (a proxy for
+    the work of growing the patterns that start there)."""
+    item_count = max(db.item_count, 1)
+    counts = np.bincount(np.asarray(db.items, dtype=np.int64), minlength=item_count).astype(np.float64)
+    cumulative = np.cumsum(counts)
+    total = cumulative[-1] if len(cumulative) else 0.0
+    if total <= 0 or range_count <= 1:
+        return [(0, item_count)]
+    cuts = np.searchsorted(cumulative, total * np.arange(1, range_count) / range_count, side="left") + 1
+    bounds = np.unique(np.concatenate([[0], np.minimum(cuts, item_count), [item_count]]))
+    return [(int(a), int(b)) for a, b in itertools.pairwise(bounds) if b > a]
+
+
+def _mine_compiled(
+    db: SequenceDatabase, arguments: list[Any], *, top_k: int
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, bool]:
+    """The compiled kernel over all first events, or, with several threads and no top-k (whose
+    threshold depends on the order of the search), over ranges of first events at the same time
+    (the kernel releases the GIL); rows are concatenated in range order, which is the order one
+    search gives. ``max_rows`` holds for the total as it does for one search."""
+    threads = numba.get_num_threads()
+    if threads <= 1 or top_k > 0 or len(db.items) < PARALLEL_MIN_POSITIONS:
+        out_items, out_len, out_support, out_users, _rows, stopped = _mine_kernel(*arguments)
+        return out_items, out_len, out_support, out_users, stopped
+    ranges = _first_event_ranges(db, threads * FIRST_EVENT_RANGES_PER_THREAD)
+    with ThreadPoolExecutor(max_workers=threads) as pool:
+        parts = list(pool.map(lambda r: _mine_kernel(*[*arguments[:-2], r[0], r[1]]), ranges))
+    max_rows = int(arguments[11])
+    stopped = any(part[5] for part in parts) or sum(int(part[4]) for part in parts) > max_rows
+    return (
+        np.concatenate([part[0] for part in parts]),
+        np.concatenate([part[1] for part in parts]),
+        np.concatenate([part[2] for part in parts]),
+        np.concatenate([part[3] for part in parts]),
+        stopped,
+    )
+
+
 def _run_kernel(
     db: SequenceDatabase,
     seq_of: np.ndarray,
@@ -854,6 +905,8 @@ def _run_kernel(
         np.ascontiguousarray(user_ptr, dtype=_I64),
         np.ascontiguousarray(user_ids, dtype=_I32),
         user_count,
+        0,
+        max(db.item_count, 1),
     ]
     stopped = True
     if _use_python(engine, len(db.items)):
@@ -865,7 +918,7 @@ def _run_kernel(
         elif not stopped:
             return out_items, out_len, out_support, out_users
     if engine != "python":
-        out_items, out_len, out_support, out_users, _rows, stopped = _mine_kernel(*arguments)
+        out_items, out_len, out_support, out_users, stopped = _mine_compiled(db, arguments, top_k=top_k)
     if stopped:
         raise ConfigError(
             f"more than {max_rows:,} patterns qualify: raise --min-support, lower --max-length, "

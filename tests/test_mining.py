@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import itertools
 
 import numpy as np
@@ -239,3 +240,43 @@ def test_min_support_rejects_nonsense(value: float) -> None:
 def test_bad_options_are_config_errors(kwargs: dict) -> None:
     with pytest.raises(ConfigError):
         mine_patterns(SequenceDatabase.from_sequences([[1, 2]]), **kwargs)
+
+
+@pytest.mark.parametrize(("max_gap", "closed"), [(None, False), (1, True), (0, False)])
+def test_mining_ranges_of_first_events_at_once_equals_one_search(
+    monkeypatch: pytest.MonkeyPatch, max_gap: int | None, closed: bool
+) -> None:
+    """With several threads the compiled miner grows ranges of first events at the same time and
+    concatenates their rows; the patterns, their order and their counts must equal one search."""
+    import gapfinder.mining as mining
+    from gapfinder.workspace import use_engine
+
+    rng = np.random.default_rng(11)
+    sequences = [rng.integers(2, 30, size=rng.integers(1, 14)).tolist() for _ in range(2000)]
+    users = rng.integers(0, 400, size=2000)
+    db = dataclasses.replace(
+        SequenceDatabase.from_sequences(sequences, rng.integers(1, 4, size=2000).tolist()),
+        user_ptr=np.arange(2001, dtype=np.int64),
+        user_ids=users.astype(np.int32),
+    )
+    options = {"min_support": 30, "max_length": 4, "max_gap": max_gap, "closed": closed}
+    monkeypatch.setattr(mining, "PARALLEL_MIN_POSITIONS", 0)
+    try:
+        use_engine(threads=1)
+        one = mine_patterns(db, engine="compiled", **options)
+    finally:
+        use_engine(threads=None)
+    monkeypatch.setattr(mining.numba, "get_num_threads", lambda: 3)  # more ranges than cores: still equal
+    ranged = mine_patterns(db, engine="compiled", **options)
+    assert len(one) >= 50
+    assert ranged.paths == one.paths
+    assert ranged.sessions.tolist() == one.sessions.tolist() and ranged.users.tolist() == one.users.tolist()
+
+
+def test_first_event_ranges_cover_every_event_once() -> None:
+    from gapfinder.mining import _first_event_ranges
+
+    db = SequenceDatabase.from_sequences([[2, 2, 3], [5, 9, 9, 9], [4]])
+    ranges = _first_event_ranges(db, 4)
+    assert ranges[0][0] == 0 and ranges[-1][1] == db.item_count
+    assert all(a < b for a, b in ranges) and all(ranges[i][1] == ranges[i + 1][0] for i in range(len(ranges) - 1))
