@@ -141,22 +141,17 @@ def build_sessions(
     # them, so no sort of every event row is needed.
     run(con, "create_event_attributes", error_outcomes=error_outcomes)
     run(con, "drop_event_vocabulary")
+    run(con, "create_event_lists", by_session=use_session_column, noise_events=noise)
+    run(con, "create_user_keys_from_event_lists")
+    run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
     if use_session_column:
-        run(con, "create_session_event_lists", noise_events=noise)
-        run(con, "create_user_keys_from_session_lists")
-        run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
         run(
             con,
             "create_raw_sessions_by_session_column",
             collapse_repeats=options.collapse_repeats,
             max_events=options.max_events,
         )
-        run(con, "drop_session_event_lists")
-        run(con, "drop_event_attributes")
     else:
-        run(con, "create_user_event_lists", noise_events=noise)
-        run(con, "create_user_keys_from_event_lists")
-        run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
         run(
             con,
             "create_raw_sessions_by_idle_gap",
@@ -164,8 +159,8 @@ def build_sessions(
             collapse_repeats=options.collapse_repeats,
             max_events=options.max_events,
         )
-        run(con, "drop_user_event_lists")
-        run(con, "drop_event_attributes")
+    run(con, "drop_event_lists")
+    run(con, "drop_event_attributes")
     finish_sessions(con, options=options, include_automated=include_automated)
 
 

@@ -1,7 +1,7 @@
 -- Creates the temporary table raw_sessions: one row per session, formed by splitting each user's
 -- events where the gap since the previous event exceeds $idle_us microseconds (a gap exactly
 -- equal stays in the session). Each user's events arrive as one sorted list of keys
--- (user_event_lists: time, then event name, outcome, app version and platform, so results do not
+-- (event_lists: time, then event name, outcome, app version and platform, so results do not
 -- depend on file order). Session starts are the positions whose gap to the previous event exceeds
 -- the threshold; the events are repacked as
 -- (position << 19 | dropped << 18 | failed << 16 | event id) integers (position: the event's place
@@ -11,7 +11,7 @@
 -- is positive), the positions in it (from 1) whose event failed, counts, errors, time span (first
 -- to last event, a dropped repeat included) and the app version and platform of its first event.
 -- Features are limited to 65,534 because of the packing.
--- Reads user_event_lists, user_keys, event_attributes.
+-- Reads event_lists, user_keys, event_attributes.
 -- Parameters: $idle_us, $collapse_repeats, $max_events.
 CREATE OR REPLACE TEMP TABLE raw_sessions AS
 WITH per_user AS (
@@ -33,7 +33,7 @@ WITH per_user AS (
                 | ((x & 1) << 16)
                 | ((x >> 32) & 65535))::BIGINT
         ) AS packed
-    FROM user_event_lists AS e
+    FROM event_lists AS e
     JOIN user_keys AS u USING (user_id)
 ),
 cut AS (

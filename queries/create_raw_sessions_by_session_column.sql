@@ -1,10 +1,10 @@
 -- Creates the temporary table raw_sessions from the input's own session column: sessions are the
 -- distinct (user, session id) pairs, numbered within the user in order of their first event, then
 -- session id; events are ordered by timestamp, event name, outcome, app version, platform (the
--- sorted keys of session_event_lists). With $collapse_repeats an event equal to the one before it
+-- sorted keys of event_lists). With $collapse_repeats an event equal to the one before it
 -- in the session is dropped from the path, the counts and the time span (first to last kept
 -- event). Same columns and options as create_raw_sessions_by_idle_gap.sql.
--- Reads session_event_lists, user_keys, event_attributes.
+-- Reads event_lists, user_keys, event_attributes.
 -- Parameters: $collapse_repeats, $max_events.
 CREATE OR REPLACE TEMP TABLE raw_sessions AS
 WITH kept_keys AS (
@@ -15,7 +15,7 @@ WITH kept_keys AS (
             e.events,
             lambda x, i: NOT ($collapse_repeats AND i > 1 AND (x >> 32) & 65535 = (e.events[i - 1] >> 32) & 65535)
         ) AS events
-    FROM session_event_lists AS e
+    FROM event_lists AS e
     JOIN user_keys AS u USING (user_id)
 ),
 per_session AS (

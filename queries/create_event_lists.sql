@@ -1,15 +1,17 @@
--- Creates the temporary table user_event_lists: one row per user id (trimmed) holding all of the
--- user's usable events as one sorted list of HUGEINT keys
+-- Creates the temporary table event_lists: one row per user id (trimmed), or per (user id, session
+-- id) with $by_session (a missing session id read as ''; without it session_id is ''), holding its
+-- usable events as one sorted list of HUGEINT keys
 -- (epoch microseconds + 2^63) << 48 | event id << 32 | attributes id << 1 | is error,
 -- so the sorted list orders events by time, then event name (ids follow names), then outcome, app
 -- version and platform (event_attributes is numbered in that order); events equal in all of these
--- are interchangeable, so results do not depend on file order. A hash group by user and a sort of
--- each user's list replace a window sort of every event row with its strings.
+-- are interchangeable, so results do not depend on file order. A hash group by and a sort of each
+-- list replace a window sort of every event row with its strings.
 -- Reads the temporary view mapped_source, features, event_attributes.
--- Parameters: $noise_events (list of event names dropped on request).
-CREATE OR REPLACE TEMP TABLE user_event_lists AS
+-- Parameters: $by_session (BOOLEAN), $noise_events (list of event names dropped on request).
+CREATE OR REPLACE TEMP TABLE event_lists AS
 SELECT
     trim(s.user_id) AS user_id,
+    CASE WHEN $by_session THEN coalesce(s.session_id, '') ELSE '' END AS session_id,
     list_sort(list(
         (epoch_us(s.ts)::HUGEINT + 9223372036854775808) * 281474976710656
         + f.event_id * 4294967296
@@ -24,4 +26,4 @@ JOIN event_attributes AS a
     AND a.platform IS NOT DISTINCT FROM s.platform
 WHERE s.user_id IS NOT NULL AND trim(s.user_id) <> '' AND s.ts IS NOT NULL
   AND NOT list_contains($noise_events, trim(s.event))
-GROUP BY trim(s.user_id);
+GROUP BY 1, 2;
