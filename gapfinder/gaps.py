@@ -698,7 +698,7 @@ def unused_tests(
     tests: TestPaths = load_test_paths(ws)
     con = ws.con
     names = feature_names(con)
-    db = load_sequences(con, with_users=True)
+    db = load_sequences(con, with_users=False)
     total = db.session_count
     journeys = [tuple(e for e in framed[1:-1] if e >= 0) for framed in tests.framed]
     runnable = [i for i, j in enumerate(journeys) if j]
@@ -708,12 +708,20 @@ def unused_tests(
     sessions = np.zeros(len(runnable), dtype=np.int64)
     np.add.at(sessions, which, db.weights[sequence])
     users = np.zeros(len(runnable), dtype=np.int64)
-    if db.user_ptr is not None and db.user_ids is not None:
-        for n in range(len(runnable)):  # one pass per test, over the sequences that take its journey
-            seqs = sequence[which == n]
-            if len(seqs):
-                spans = [db.user_ids[db.user_ptr[q] : db.user_ptr[q + 1]] for q in seqs.tolist()]
-                users[n] = len(np.unique(np.concatenate(spans)))
+    # Distinct users matter only for the journeys listed (taken by at most max_share of sessions):
+    # the path → users pairs are read only when there is one, and each is counted on a bitmap.
+    rare = [n for n in range(len(runnable)) if sessions[n] > 0 and sessions[n] / total <= max_share]
+    if rare:
+        with_users = load_sequences(con, with_users=True)
+        user_ptr, user_ids = with_users.user_ptr, with_users.user_ids
+        if user_ptr is not None and user_ids is not None and len(user_ids):
+            seen = np.zeros(int(user_ids.max()) + 1, dtype=np.bool_)
+            for n in rare:  # one pass per listed test, over the sequences that take its journey
+                seqs = sequence[which == n]
+                ids = np.concatenate([user_ids[user_ptr[q] : user_ptr[q + 1]] for q in seqs.tolist()])
+                seen[ids] = True
+                users[n] = int(seen.sum())
+                seen[ids] = False
     taken = {runnable[n]: (int(sessions[n]), int(users[n])) for n in range(len(runnable))}
     step_total = sum(len(f) - 2 for f in tests.framed)
     rows = []
