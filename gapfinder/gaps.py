@@ -44,7 +44,7 @@ from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated
 from gapfinder.periods import Period, split_in_halves, time_zone
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_dicts
+from gapfinder.sql import fetch_dicts, registered
 from gapfinder.stats import ratio_interval, wilson_interval
 from gapfinder.workspace import Workspace
 
@@ -709,19 +709,20 @@ def unused_tests(
     np.add.at(sessions, which, db.weights[sequence])
     users = np.zeros(len(runnable), dtype=np.int64)
     # Distinct users matter only for the journeys listed (taken by at most max_share of sessions):
-    # the path → users pairs are read only when there is one, and each is counted on a bitmap.
-    rare = [n for n in range(len(runnable)) if sessions[n] > 0 and sessions[n] / total <= max_share]
-    if rare:
-        with_users = load_sequences(con, with_users=True)
-        user_ptr, user_ids = with_users.user_ptr, with_users.user_ids
-        if user_ptr is not None and user_ids is not None and len(user_ids):
-            seen = np.zeros(int(user_ids.max()) + 1, dtype=np.bool_)
-            for n in rare:  # one pass per listed test, over the sequences that take its journey
-                seqs = sequence[which == n]
-                ids = np.concatenate([user_ids[user_ptr[q] : user_ptr[q + 1]] for q in seqs.tolist()])
-                seen[ids] = True
-                users[n] = int(seen.sum())
-                seen[ids] = False
+    # DuckDB counts them from the sessions of the few paths those journeys occur in.
+    rare = np.array([n for n in range(len(runnable)) if sessions[n] > 0 and sessions[n] / total <= max_share])
+    if len(rare) and db.path_ids is not None:
+        listed = np.isin(which, rare)
+        journey_paths = pa.table(
+            {
+                "journey_no": pa.array(which[listed], type=pa.int64()),
+                "path_id": pa.array(db.path_ids[sequence[listed]], type=pa.int64()),
+            }
+        )
+        with registered(con, journey_paths=journey_paths):
+            counted = fetch_dicts(con, "count_journey_users", include_automated=profile_included_automated(con))
+        for row in counted:
+            users[row["journey_no"]] = row["users"]
     taken = {runnable[n]: (int(sessions[n]), int(users[n])) for n in range(len(runnable))}
     step_total = sum(len(f) - 2 for f in tests.framed)
     rows = []
