@@ -144,7 +144,11 @@ def profile_options(func: F) -> F:
         click.option(
             "--key-file", type=click.Path(dir_okay=False), help="Pseudonymize user ids with the key in this file."
         ),
-        click.option("--threads", type=click.IntRange(min=1), help="DuckDB threads (default: all cores)."),
+        click.option(
+            "--threads",
+            type=click.IntRange(min=1),
+            help="Threads for DuckDB and the pattern miner and matcher (default: all cores).",
+        ),
         click.option(
             "--memory-limit",
             metavar="SIZE",
