@@ -33,8 +33,6 @@ from __future__ import annotations
 
 import itertools
 import math
-import types
-from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any
@@ -43,6 +41,7 @@ import numba
 import numpy as np
 from numba import njit
 
+from gapfinder.compiled import grow, python_twin
 from gapfinder.errors import ConfigError
 
 __all__ = [
@@ -180,18 +179,6 @@ def resolve_min_support(value: float, session_count: int) -> int:
 
 
 @njit(cache=True, nogil=True)
-def _grow(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cover - compiled
-    size = buffer.shape[0]
-    while size < needed:
-        size *= 2
-    if size == buffer.shape[0]:
-        return buffer
-    bigger = np.empty(size, dtype=buffer.dtype)
-    bigger[: buffer.shape[0]] = buffer
-    return bigger
-
-
-@njit(cache=True, nogil=True)
 def _grow_rows(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cover - compiled
     size = buffer.shape[0]
     while size < needed:
@@ -211,7 +198,7 @@ def _grow_output(  # pragma: no cover - compiled
     old_rows = out_items.shape[0]
     out_items = _grow_rows(out_items, needed)
     out_items[old_rows:] = -1
-    return out_items, _grow(out_len, needed), _grow(out_support, needed), _grow(out_users, needed)
+    return out_items, grow(out_len, needed), grow(out_support, needed), grow(out_users, needed)
 
 
 @njit(cache=True, nogil=True)
@@ -444,7 +431,7 @@ def _mine_kernel(  # pragma: no cover - compiled
                     needed += entry_count[x]
                     child_hi[level, c] = needed
                     is_wanted[x] = True
-                arena = _grow(arena, needed)
+                arena = grow(arena, needed)
                 visit = _scan(
                     arena,
                     expand_lo,
@@ -790,32 +777,16 @@ def _candidate_sequences(db: SequenceDatabase, patterns: list[tuple[int, ...]]) 
     return ptr, flat
 
 
-# Small inputs run the very same kernels as plain Python: numba's first call in a process costs about
-# half a second (setting up its compiler target), far more than mining a few hundred distinct paths
-# takes in Python. The twins are the kernels' own code (``py_func``) with every compiled helper they
-# call swapped for its plain-Python original, so the two engines cannot drift apart.
+# Small inputs run the very same kernels as plain Python (``gapfinder.compiled.python_twin``): numba's
+# first call costs far more than mining a few hundred distinct paths takes in Python.
 PYTHON_ENGINE_MAX_POSITIONS = 4_096  # events in distinct paths
 PYTHON_ENGINE_MAX_ROWS = 20_000  # patterns (beyond, the compiled kernel takes over)
 ENGINES = ("auto", "compiled", "python")
 
 
-def _python_twin(kernel: Any, *helpers: Any) -> Callable[..., Any]:
-    module_globals = dict(kernel.py_func.__globals__)
-    # Helpers are rebuilt over the same swapped globals, so a helper calling another helper stays plain.
-    for h in helpers:
-        module_globals[h.py_func.__name__] = types.FunctionType(h.py_func.__code__, module_globals, h.py_func.__name__)
-    plain = types.FunctionType(kernel.py_func.__code__, module_globals, kernel.py_func.__name__)
-
-    def twin(*args: Any) -> Any:
-        with np.errstate(over="ignore"):  # 64-bit hashes wrap around, as they do when compiled
-            return plain(*args)
-
-    return twin
-
-
-_mine_python = _python_twin(_mine_kernel, _grow, _grow_rows, _grow_output, _scan, _heap_push)
-_closed_flags_python = _python_twin(_closed_flags, _row_hash)
-_match_python = _python_twin(_match_kernel, _state_at, _grow)
+_mine_python = python_twin(_mine_kernel, grow, _grow_rows, _grow_output, _scan, _heap_push)
+_closed_flags_python = python_twin(_closed_flags, _row_hash)
+_match_python = python_twin(_match_kernel, _state_at, grow)
 
 
 def _use_python(engine: str, positions: int) -> bool:

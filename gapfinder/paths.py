@@ -2,8 +2,9 @@
 
 Every session path is framed as START → events → END. A k-path is a contiguous run of k states
 of that frame (k = 2 gives the transitions), counted three ways: occurrences, sessions that
-contain it, and distinct users. All counting happens in DuckDB (queries/create_kpath_runs.sql, then
-queries/create_kpaths.sql).
+contain it, and distinct users. They are counted over the distinct full paths and the users' sets of
+them by a compiled kernel (gapfinder.kpath_counts) and written to the kpaths table by DuckDB
+(queries/create_kpaths.sql).
 """
 
 from __future__ import annotations
@@ -17,6 +18,7 @@ import pyarrow as pa
 
 from gapfinder.disclosure import complementary_suppression, kpath_parents
 from gapfinder.errors import ConfigError
+from gapfinder.kpath_counts import KpathCounts, count_kpaths
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, registered, run
 
@@ -62,9 +64,53 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
             f"--max-k {max_k}: with {2**bits - 2:,}+ distinct events a path of {max_k} steps does not "
             f"fit in 60 bits; use --max-k {60 // bits} or less"
         )
-    run(con, "create_kpath_runs", max_k=max_k, bits=bits)
-    run(con, "create_kpaths", bits=bits, include_automated=include_automated)
-    run(con, "drop_kpath_runs")
+    counts = _count_runs(con, max_k=max_k, bits=bits, include_automated=include_automated)
+    offsets, states = counts.paths()
+    frame = pa.table(
+        {
+            "k": pa.array((counts.codes >> np.uint64(60)).astype(np.int32)),
+            "code": pa.array(counts.codes, type=pa.uint64()),
+            "path": pa.ListArray.from_arrays(pa.array(offsets.astype(np.int32)), pa.array(states)),
+            "occurrences": pa.array(counts.occurrences),
+            "sessions": pa.array(counts.sessions),
+            "users": pa.array(counts.users),
+        }
+    )
+    with registered(con, kpath_counts=frame):
+        run(con, "create_kpaths")
+
+
+def _count_runs(con: duckdb.DuckDBPyConnection, *, max_k: int, bits: int, include_automated: bool) -> KpathCounts:
+    """The k-path counts over the distinct paths that count and the users' sets of them."""
+    paths = fetch_arrow(con, "list_counted_full_paths")
+    signatures = fetch_arrow(con, "list_path_signatures", include_automated=include_automated)
+    path_lists = _flat_lists(paths.column("path"))
+    path_ids = paths.column("path_id").to_numpy()
+    signature_lists = _flat_lists(signatures.column("signature"))
+    signature_path_ids = signature_lists[1].astype(np.int64)
+    top = int(max(path_ids.max(initial=0), signature_path_ids.max(initial=0)))
+    index_of_id = np.full(top + 1, -1, dtype=np.int32)
+    index_of_id[path_ids] = np.arange(len(path_ids), dtype=np.int32)
+    return count_kpaths(
+        path_lists[0],
+        path_lists[1],
+        paths.column("sessions").to_numpy(),
+        signature_lists[0],
+        index_of_id[signature_path_ids],
+        signatures.column("user_count").to_numpy(),
+        max_k=max_k,
+        bits=bits,
+    )
+
+
+def _flat_lists(column: pa.ChunkedArray) -> tuple[np.ndarray, np.ndarray]:
+    """(offsets, values) of a list column without nulls."""
+    lists = column.combine_chunks() if column.num_chunks != 1 else column.chunk(0)
+    if len(lists) == 0:
+        return np.zeros(1, dtype=np.int64), np.zeros(0, dtype=np.int32)
+    offsets = lists.offsets.to_numpy().astype(np.int64)
+    values = lists.values.to_numpy(zero_copy_only=False)
+    return offsets - offsets[0], values[offsets[0] : offsets[-1]]
 
 
 def feature_names(con: duckdb.DuckDBPyConnection) -> list[str]:

@@ -1,2 +1,0 @@
--- Drops the temporary table path_runs once kpaths is written. Parameters: none.
-DROP TABLE IF EXISTS temp.path_runs;
