@@ -16,6 +16,7 @@ from __future__ import annotations
 import itertools
 import json
 import os
+import shutil
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -212,6 +213,9 @@ class DemoResult:
     staging_files: list[Path] = field(default_factory=list)
 
 
+CHUNK_SESSIONS = 250_000  # sessions whose events are made at once (about 2.3M events)
+
+
 def _expected_length(journey: Journey) -> float:
     return sum(p for _, p in journey.steps) + sum(p for _, p in DETOURS)
 
@@ -235,6 +239,104 @@ def _journey_events(
         order.append(where[has] * 2 + 1)
         events.append(np.full(int(has.sum()), _CODE[detour]))
     return np.concatenate(session_idx), np.concatenate(order), np.concatenate(events)
+
+
+def _block_events(
+    rng: np.random.Generator,
+    sessions: range,
+    *,
+    starts: np.ndarray,
+    journey_of: np.ndarray,
+    user_of: np.ndarray,
+    platform_of_user: np.ndarray,
+    versions: np.ndarray,
+) -> dict[str, np.ndarray]:
+    """Every event of a block of consecutive sessions, as integer codes (names only become the
+    dictionaries of the Parquet columns, so memory and time stay linear in the events)."""
+    first, stop = sessions.start, sessions.stop
+    journeys = journey_of[first:stop]
+    parts = [_journey_events(rng, j, np.nonzero(journeys == i)[0] + first) for i, j in enumerate(JOURNEYS)]
+    sess = np.concatenate([p[0] for p in parts])
+    order = np.concatenate([p[1] for p in parts])
+    code = np.concatenate([p[2] for p in parts])
+    sort = np.lexsort((order, sess))
+    sess, code = sess[sort], code[sort]
+
+    # Time within a session: gaps of about 20 s (exponential, 1 s to 10 min).
+    gaps = np.clip(rng.exponential(20.0, size=len(sess)), 1.0, 600.0)
+    opens = np.r_[True, sess[1:] != sess[:-1]]
+    gaps[opens] = 0.0
+    cum = np.cumsum(gaps)
+    offsets = cum - np.maximum.accumulate(np.where(opens, cum, 0.0))
+    ts = starts[sess] + (offsets * 1e6).astype("timedelta64[us]")
+
+    # App version by date; members update with a lag; waitlist sessions need 5.0.
+    lag_days = rng.exponential(12.0, size=stop - first).astype("timedelta64[D]").astype("timedelta64[us]")
+    seen = starts[first:stop] - lag_days
+    version = np.where(seen < np.datetime64("2026-03-01", "us"), 0, np.where(seen < SECOND_QUARTER, 1, 2))
+    waitlist = next(i for i, j in enumerate(JOURNEYS) if j.name == "join_waitlist")
+    version[journeys == waitlist] = 2
+    local = sess - first
+
+    # Outcomes: per-event error rates, the planted segment effect, and the forced card failure.
+    rate = np.full(len(FEATURES), BASE_ERROR_RATE)
+    for name, r in ERROR_RATES.items():
+        rate[_CODE[name]] = r
+    event_rate = rate[code]
+    platform = platform_of_user[user_of[sess]]
+    segment = (
+        (code == _CODE[str(SEGMENT_ERROR["event"])])
+        & (platform == [p for p, _ in PLATFORMS].index(str(SEGMENT_ERROR["platform"])))
+        & (version[local] == list(versions).index(str(SEGMENT_ERROR["app_version"])))
+    )
+    event_rate[segment] = float(SEGMENT_ERROR["rate"])  # type: ignore[arg-type]
+    is_error = rng.random(len(code)) < event_rate
+    fails_first = next(i for i, j in enumerate(JOURNEYS) if j.name == "card_fails_then_voucher")
+    is_error[(journey_of[sess] == fails_first) & (code == _CODE["pay_deposit_card"])] = True
+    return {
+        "user": user_of[sess].astype(np.int32),
+        "ts": ts,
+        "event": code.astype(np.int32),
+        "app_version": version[local].astype(np.int32),
+        "platform": platform.astype(np.int32),
+        "outcome": is_error.astype(np.int32),
+    }
+
+
+class _MonthBlocks:
+    """Blocks of events kept on disk per month (one ``.npz`` per month and block, in the order they
+    were added) until every block is made."""
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = folder
+        self.parts: dict[str, list[Path]] = {}
+
+    def add(self, columns: dict[str, np.ndarray]) -> None:
+        self.folder.mkdir(parents=True, exist_ok=True)
+        month = columns["ts"].astype("datetime64[M]")
+        order = np.argsort(month, kind="stable")  # stable: rows keep their order within a month
+        month = month[order]
+        bounds = np.r_[0, np.nonzero(month[1:] != month[:-1])[0] + 1, len(month)]
+        for lo, hi in itertools.pairwise(bounds):
+            key = str(month[lo])
+            path = self.folder / f"{key}-{len(self.parts.get(key, []))}.npz"
+            payload: dict[str, Any] = {name: values[order[lo:hi]] for name, values in columns.items()}
+            np.savez(path, **payload)
+            self.parts.setdefault(key, []).append(path)
+
+    def months(self) -> list[str]:
+        return sorted(self.parts)
+
+    def read(self, month: str) -> dict[str, np.ndarray]:
+        loaded = [np.load(path) for path in self.parts[month]]
+        try:
+            return {name: np.concatenate([part[name] for part in loaded]) for name in loaded[0].files}
+        finally:
+            for part in loaded:
+                part.close()
+
+    def remove(self) -> None:
+        shutil.rmtree(self.folder, ignore_errors=True)
 
 
 def generate_demo(
@@ -287,84 +389,65 @@ def generate_demo(
     user_of = rng.choice(user_count, size=session_count, p=activity / activity.sum())
     platform_of_user = rng.choice(len(PLATFORMS), size=user_count, p=[p for _, p in PLATFORMS])
 
-    parts = [_journey_events(rng, j, np.nonzero(journey_of == i)[0]) for i, j in enumerate(JOURNEYS)]
-    sess = np.concatenate([p[0] for p in parts])
-    order = np.concatenate([p[1] for p in parts])
-    code = np.concatenate([p[2] for p in parts])
-    sort = np.lexsort((order, sess))
-    sess, code = sess[sort], code[sort]
-
-    # Time within a session: gaps of about 20 s (exponential, 1 s to 10 min).
-    gaps = np.clip(rng.exponential(20.0, size=len(sess)), 1.0, 600.0)
-    first = np.r_[True, sess[1:] != sess[:-1]]
-    gaps[first] = 0.0
-    cum = np.cumsum(gaps)
-    offsets = cum - np.maximum.accumulate(np.where(first, cum, 0.0))
-    ts = starts[sess] + (offsets * 1e6).astype("timedelta64[us]")
-
-    # App version by date; members update with a lag; waitlist sessions need 5.0.
-    lag_days = rng.exponential(12.0, size=session_count).astype("timedelta64[D]").astype("timedelta64[us]")
-    seen = starts - lag_days
-    version = np.where(seen < np.datetime64("2026-03-01", "us"), 0, np.where(seen < SECOND_QUARTER, 1, 2))
-    waitlist = next(i for i, j in enumerate(JOURNEYS) if j.name == "join_waitlist")
-    version[journey_of == waitlist] = 2
+    journey_of = journey_of.astype(np.int8)  # the same values, an eighth of the memory
+    user_of = user_of.astype(np.int32)
+    platform_of_user = platform_of_user.astype(np.int8)
     versions = np.array(["4.1", "4.2", "5.0"])
     platforms = np.array([p for p, _ in PLATFORMS])
 
-    # Outcomes: per-event error rates, the planted segment effect, and the forced card failure.
-    rate = np.full(len(FEATURES), BASE_ERROR_RATE)
-    for name, r in ERROR_RATES.items():
-        rate[_CODE[name]] = r
-    event_rate = rate[code]
-    segment = (
-        (code == _CODE[str(SEGMENT_ERROR["event"])])
-        & (platform_of_user[user_of[sess]] == [p for p, _ in PLATFORMS].index(str(SEGMENT_ERROR["platform"])))
-        & (version[sess] == list(versions).index(str(SEGMENT_ERROR["app_version"])))
-    )
-    event_rate[segment] = float(SEGMENT_ERROR["rate"])  # type: ignore[arg-type]
-    is_error = rng.random(len(code)) < event_rate
-    fails_first = next(i for i, j in enumerate(JOURNEYS) if j.name == "card_fails_then_voucher")
-    is_error[(journey_of[sess] == fails_first) & (code == _CODE["pay_deposit_card"])] = True
-
-    # Integer codes throughout; names only as the dictionaries of the Parquet columns (memory and
-    # time stay linear in the number of events).
-    columns: dict[str, Any] = {
-        "user": user_of[sess].astype(np.int32),
-        "ts": ts,
-        "event": code.astype(np.int32),
-        "app_version": version[sess].astype(np.int32),
-        "platform": platform_of_user[user_of[sess]].astype(np.int32),
-        "outcome": is_error.astype(np.int32),
-    }
-
-    # The automated account: short fixed pauses, the same two screens over and over.
-    bot_sessions = max(4, int(events * 0.01 / BOT_EVENTS_PER_SESSION))
-    bot_days = np.sort(rng.choice(180, size=min(bot_sessions, 180), replace=False))
-    bot_starts = START_DATE + (bot_days * 86_400 + 3 * 3600).astype("timedelta64[s]").astype("timedelta64[us]")
-    steps = np.arange(BOT_EVENTS_PER_SESSION)
-    bot_ts = (bot_starts[:, None] + (steps[None, :] * 2_000_000).astype("timedelta64[us]")).ravel()
-    bot_event = np.tile(np.array([_CODE[name] for name in BOT_LOOP])[steps % 2], len(bot_starts))
-    bot_n = len(bot_ts)
-    bot_values = {
-        "user": user_count,
-        "app_version": list(versions).index("4.2"),
-        "platform": list(platforms).index("web"),
-        "outcome": 0,
-    }
-    for name, value in bot_values.items():
-        columns[name] = np.concatenate([columns[name], np.full(bot_n, value, dtype=np.int32)])
-    columns["ts"] = np.concatenate([columns["ts"], bot_ts])
-    columns["event"] = np.concatenate([columns["event"], bot_event.astype(np.int32)])
-    labels = {
-        # member ids are zero-padded, so their order is their number's order (the bot is the last)
-        "user": np.char.add("m", np.char.zfill(np.arange(user_count + 1).astype(str), 6)),
-        "event": np.array(FEATURES),
-        "app_version": versions,
-        "platform": platforms,
-        "outcome": np.array(["ok", "error"]),
-    }
-
-    field_files = _write_field(field_dir, columns, labels)
+    # Events are made a block of sessions at a time and kept per month on disk, so memory does not
+    # grow with the number of events; one block (up to CHUNK_SESSIONS sessions) draws exactly what
+    # one pass over all sessions did.
+    spill = target / ".gapfinder-demo-blocks"
+    if spill.is_symlink() or (spill.exists() and not spill.is_dir()):
+        raise ConfigError(f"{spill} is in the way (a link or a file): remove it, or choose another --out folder")
+    months = _MonthBlocks(spill)
+    try:
+        member_events = 0
+        for first in range(0, session_count, CHUNK_SESSIONS):
+            block = _block_events(
+                rng,
+                range(first, min(first + CHUNK_SESSIONS, session_count)),
+                starts=starts,
+                journey_of=journey_of,
+                user_of=user_of,
+                platform_of_user=platform_of_user,
+                versions=versions,
+            )
+            member_events += len(block["event"])
+            months.add(block)
+        # The automated account: short fixed pauses, the same two screens over and over.
+        bot_sessions = max(4, int(events * 0.01 / BOT_EVENTS_PER_SESSION))
+        bot_days = np.sort(rng.choice(180, size=min(bot_sessions, 180), replace=False))
+        bot_starts = START_DATE + (bot_days * 86_400 + 3 * 3600).astype("timedelta64[s]").astype("timedelta64[us]")
+        steps = np.arange(BOT_EVENTS_PER_SESSION)
+        bot_ts = (bot_starts[:, None] + (steps[None, :] * 2_000_000).astype("timedelta64[us]")).ravel()
+        bot_event = np.tile(np.array([_CODE[name] for name in BOT_LOOP])[steps % 2], len(bot_starts))
+        bot_n = len(bot_ts)
+        bot_values = {
+            "user": user_count,
+            "app_version": list(versions).index("4.2"),
+            "platform": list(platforms).index("web"),
+            "outcome": 0,
+        }
+        months.add(
+            {
+                "ts": bot_ts,
+                "event": bot_event.astype(np.int32),
+                **{name: np.full(bot_n, value, dtype=np.int32) for name, value in bot_values.items()},
+            }
+        )
+        labels = {
+            # member ids are zero-padded, so their order is their number's order (the bot is the last)
+            "user": np.char.add("m", np.char.zfill(np.arange(user_count + 1).astype(str), 6)),
+            "event": np.array(FEATURES),
+            "app_version": versions,
+            "platform": platforms,
+            "outcome": np.array(["ok", "error"]),
+        }
+        field_files = [_write_month(field_dir, month, months.read(month), labels) for month in months.months()]
+    finally:
+        months.remove()
     if as_format != "parquet":
         field_files = _rewrite_field(field_files, as_format)
     suite_file = _write_suite(target / "tests")
@@ -373,7 +456,7 @@ def generate_demo(
         "scenario": "community tool library (invented)",
         "seed": seed,
         "events_requested": events,
-        "field_events": len(columns["event"]),
+        "field_events": member_events + bot_n,
         "member_sessions": session_count,
         "members": user_count,
         "period": {"start": "2026-01-01", "end": "2026-06-30", "second_quarter_from": "2026-04-01"},
@@ -415,7 +498,7 @@ def generate_demo(
         suite_file=suite_file,
         manifest_file=manifest_file,
         staging_files=staging_files,
-        event_count=len(columns["event"]),
+        event_count=member_events + bot_n,
         session_count=session_count + len(bot_starts),
         user_count=user_count + 1,
     )
@@ -429,31 +512,24 @@ def _dictionary(codes: np.ndarray, labels: np.ndarray) -> pa.DictionaryArray:
     return pa.DictionaryArray.from_arrays(pa.array(renumber[codes]), pa.array(labels[used].tolist()))
 
 
-def _write_field(field_dir: Path, columns: dict[str, Any], labels: dict[str, np.ndarray]) -> list[Path]:
-    """Hive-partitioned by month, rows ordered by member and time, zstd-compressed."""
-    month = columns["ts"].astype("datetime64[M]")
-    order = np.lexsort((columns["ts"], columns["user"], month))
-    month = month[order]
-    boundaries = np.r_[0, np.nonzero(month[1:] != month[:-1])[0] + 1, len(month)]
-    written = []
-    for lo, hi in itertools.pairwise(boundaries):
-        part = order[lo:hi]
-        folder = field_dir / f"month={month[lo]!s}"
-        folder.mkdir(parents=True, exist_ok=True)
-        table = pa.table(
-            {
-                "user_id": _dictionary(columns["user"][part], labels["user"]).cast(pa.string()),
-                "ts": pa.array(columns["ts"][part], type=pa.timestamp("us", tz="UTC")),
-                "event": _dictionary(columns["event"][part], labels["event"]),
-                "app_version": _dictionary(columns["app_version"][part], labels["app_version"]),
-                "platform": _dictionary(columns["platform"][part], labels["platform"]),
-                "outcome": _dictionary(columns["outcome"][part], labels["outcome"]),
-            }
-        )
-        path = folder / "events.parquet"
-        pq.write_table(table, path, compression="zstd", row_group_size=1_000_000)
-        written.append(path)
-    return written
+def _write_month(field_dir: Path, month: str, columns: dict[str, np.ndarray], labels: dict[str, np.ndarray]) -> Path:
+    """One month's events, hive-partitioned, rows ordered by member and time, zstd-compressed."""
+    order = np.lexsort((columns["ts"], columns["user"]))
+    folder = field_dir / f"month={month}"
+    folder.mkdir(parents=True, exist_ok=True)
+    table = pa.table(
+        {
+            "user_id": _dictionary(columns["user"][order], labels["user"]).cast(pa.string()),
+            "ts": pa.array(columns["ts"][order], type=pa.timestamp("us", tz="UTC")),
+            "event": _dictionary(columns["event"][order], labels["event"]),
+            "app_version": _dictionary(columns["app_version"][order], labels["app_version"]),
+            "platform": _dictionary(columns["platform"][order], labels["platform"]),
+            "outcome": _dictionary(columns["outcome"][order], labels["outcome"]),
+        }
+    )
+    path = folder / "events.parquet"
+    pq.write_table(table, path, compression="zstd", row_group_size=1_000_000)
+    return path
 
 
 def _rewrite_field(parquet_files: list[Path], as_format: str) -> list[Path]:
