@@ -27,12 +27,10 @@ import uuid
 import warnings
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
-from datetime import UTC, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
 import duckdb
-import pyarrow as pa
 
 from gapfinder.errors import ConfigError, InputError, QueryError
 from gapfinder.privacy import hmac_pads
@@ -40,7 +38,7 @@ from gapfinder.sessions import MAX_FEATURES, SessionOptions, SourceRowCounts, ch
 from gapfinder.sources import OpenedSource, open_telemetry
 from gapfinder.sources.feature_keys import apply_rules
 from gapfinder.sources.formats import SourceFiles, resolve_files
-from gapfinder.sql import fetch_arrow, load, registered, run
+from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, load, registered, run
 
 __all__ = ["SparkSettings", "spark_session"]
 
@@ -297,13 +295,17 @@ class SparkEngine:
         renamed.createOrReplaceTempView("mapped_source")
 
     def count_rows(self, con: duckdb.DuckDBPyConnection, options: SessionOptions) -> SourceRowCounts:
+        """One Spark scan groups the source (``spark/create_source_digest``); the groups come back
+        into DuckDB's ``source_digest``, where the row counts and, later, the event names are read."""
+        self._load_digest(con, options)
+        return SourceRowCounts.from_rows(fetch_dicts(con, "count_source_rows"))
+
+    def _load_digest(self, con: duckdb.DuckDBPyConnection, options: SessionOptions) -> None:
         with _spark_reading(self._label):
-            frame = spark_sql(self._spark, "spark/count_source_rows", noise_events=list(options.drop_events))
-            rows = [row.asDict() for row in frame.collect()]
-        for row in rows:
-            for key in ("first_ts", "last_ts"):
-                row[key] = _utc(row[key])
-        return SourceRowCounts.from_rows(rows)
+            digest = spark_sql(self._spark, "spark/create_source_digest", noise_events=list(options.drop_events))
+            frame = digest.toArrow()
+        with registered(con, engine_source_digest=frame):
+            run(con, "load_engine_source_digest")
 
     def build_sessions(
         self,
@@ -317,11 +319,16 @@ class SparkEngine:
         assert self._staging is not None
         spark, staging = self._spark, self._staging
         noise = list(options.drop_events)
+        if not first_row(run(con, "has_temp_table", name="source_digest"))[0]:
+            self._load_digest(con, options)
+        # the event names come from the digest, numbered as on DuckDB
+        run(con, "create_event_vocabulary")
+        run(con, "drop_source_digest")
+        run(con, "create_features")
+        run(con, "drop_event_vocabulary")
+        counted = run(con, "count_features").fetchall()
+        check_feature_count(int(counted[0][0]) if counted else 0)
         with _spark_reading(self._label):
-            names = [row[0] for row in spark_sql(spark, "spark/list_event_names", noise_events=noise).collect()]
-            check_feature_count(len(names))
-            with registered(con, event_names_frame=pa.table({"event": pa.array(names, pa.string())})):
-                run(con, "create_features_from_names")
             features = fetch_arrow(con, "list_feature_ids")
             spark.createDataFrame(features).hint("broadcast").createOrReplaceTempView("features")
             # The distinct users are written once and read back, so the two passes that use them agree.
@@ -363,9 +370,3 @@ class SparkEngine:
         if self._source is not None:
             self._source.close()
             self._source = None
-
-
-def _utc(micros: int | None) -> datetime | None:
-    """Microseconds since the epoch as an aware UTC datetime (exact; Spark's own datetimes are naive
-    and in the driver's local zone)."""
-    return None if micros is None else datetime(1970, 1, 1, tzinfo=UTC) + timedelta(microseconds=int(micros))
