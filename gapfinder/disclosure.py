@@ -43,15 +43,19 @@ def kpath_parents(codes: np.ndarray, bits: int) -> tuple[np.ndarray, np.ndarray]
     k = 1 both are ``ROOT``. Codes follow ``queries/create_kpaths.sql``: k in the top 4 bits,
     then one event id per ``bits`` bits.
     """
-    codes = codes.astype(np.uint64)
-    k = codes >> _K_SHIFT
+    codes = np.asarray(codes, dtype=np.uint64)
+    k = (codes >> _K_SHIFT).astype(np.intp)
     payload = codes & np.uint64((1 << 60) - 1)
-    parent_k = (k - np.uint64(1)) << _K_SHIFT
-    prefix = parent_k | (payload >> np.uint64(bits))
-    width = ((k - np.uint64(1)) * np.uint64(bits)).astype(np.uint64)
-    mask = (np.uint64(1) << width) - np.uint64(1)
-    suffix = parent_k | (payload & mask)
-    single = k == np.uint64(1)
+    # per k (0..15): the parent's k in the top bits, and the mask keeping the last k - 1 states;
+    # looked up rather than shifted by a per-row amount, which numpy does slowly
+    lengths = np.arange(16)
+    parent_k = np.where(lengths >= 2, (np.maximum(lengths - 1, 0)).astype(np.uint64) << _K_SHIFT, ROOT)
+    widths = np.minimum(np.maximum(lengths - 1, 0) * bits, 63).astype(np.uint64)
+    masks = (np.uint64(1) << widths) - np.uint64(1)
+    top = parent_k[k]
+    prefix = top | (payload >> np.uint64(bits))
+    suffix = top | (payload & masks[k])
+    single = k == 1
     prefix[single] = ROOT
     suffix[single] = ROOT
     return prefix, suffix

@@ -104,13 +104,18 @@ def _count_runs(con: duckdb.DuckDBPyConnection, *, max_k: int, bits: int, includ
 
 
 def _flat_lists(column: pa.ChunkedArray) -> tuple[np.ndarray, np.ndarray]:
-    """(offsets, values) of a list column without nulls."""
-    lists = column.combine_chunks() if column.num_chunks != 1 else column.chunk(0)
-    if len(lists) == 0:
-        return np.zeros(1, dtype=np.int64), np.zeros(0, dtype=np.int32)
-    offsets = lists.offsets.to_numpy().astype(np.int64)
-    values = lists.values.to_numpy(zero_copy_only=False)
-    return offsets - offsets[0], values[offsets[0] : offsets[-1]]
+    """(offsets, values) of a list column without nulls, chunk by chunk (no combined copy)."""
+    offsets = [np.zeros(1, dtype=np.int64)]
+    values = [np.zeros(0, dtype=np.int32)]
+    base = 0
+    for chunk in column.chunks:
+        if len(chunk) == 0:
+            continue
+        bounds = chunk.offsets.to_numpy().astype(np.int64)
+        values.append(chunk.values.to_numpy(zero_copy_only=False)[bounds[0] : bounds[-1]])
+        offsets.append(bounds[1:] - bounds[0] + base)
+        base += int(bounds[-1] - bounds[0])
+    return np.concatenate(offsets), np.concatenate(values)
 
 
 def feature_names(con: duckdb.DuckDBPyConnection) -> list[str]:
