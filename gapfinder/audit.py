@@ -29,7 +29,8 @@ import duckdb
 import numpy as np
 
 from gapfinder.errors import ConfigError, InputError
-from gapfinder.mining import SequenceDatabase, containing_sequences
+from gapfinder.matching import containing_sequences
+from gapfinder.mining import SequenceDatabase
 from gapfinder.paths import feature_names
 from gapfinder.patterns import profile_included_automated
 from gapfinder.periods import Period, midnight, split_in_halves, time_zone

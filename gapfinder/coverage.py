@@ -26,7 +26,8 @@ from typing import Any
 import numpy as np
 
 from gapfinder.errors import ConfigError
-from gapfinder.mining import SequenceDatabase, containing_sequences
+from gapfinder.matching import containing_sequences
+from gapfinder.mining import SequenceDatabase
 from gapfinder.paths import feature_names, id_bits
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts, first_row

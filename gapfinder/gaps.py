@@ -38,7 +38,7 @@ from gapfinder.coverage import (
 )
 from gapfinder.errors import ConfigError
 from gapfinder.gap_evidence import gap_evidence
-from gapfinder.mining import containing_sequences
+from gapfinder.matching import containing_sequences
 from gapfinder.occurrences import first_occurrences
 from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated

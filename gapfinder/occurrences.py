@@ -2,7 +2,7 @@
 
 A gap's error evidence counts failures on the events of the matched occurrence itself and on the
 step right after it, not anywhere in the session. For each (candidate, distinct path) pair that
-``mining.containing_sequences`` found, ``first_occurrences`` returns the session-path positions
+``matching.containing_sequences`` found, ``first_occurrences`` returns the session-path positions
 (from 1; 0 is START, ``len + 1`` is END) of the occurrence that starts leftmost, its steps as early
 as the gap bound allows (a depth-first search with backtracking: an earlier choice of a middle step
 can make a later step unreachable under a gap bound), and the position right after it.
@@ -13,7 +13,8 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from gapfinder.mining import SequenceDatabase, _state_at
+from gapfinder.matching import state_at
+from gapfinder.mining import SequenceDatabase
 
 __all__ = ["first_occurrences"]
 
@@ -45,7 +46,7 @@ def _occurrence_kernel(  # pragma: no cover - compiled
         n = hi - lo + (2 if is_framed else 0)
         found = False
         for j0 in range(n):
-            if _state_at(items, lo, hi, j0, is_framed) != pattern_items[a]:
+            if state_at(items, lo, hi, j0, is_framed) != pattern_items[a]:
                 continue
             cur[0] = j0
             if k == 1:
@@ -57,7 +58,7 @@ def _occurrence_kernel(  # pragma: no cover - compiled
                 limit = n - 1 if gap < 0 else min(n - 1, cur[q - 1] + 1 + gap)
                 hit = -1
                 for j in range(nxt[q], limit + 1):
-                    if _state_at(items, lo, hi, j, is_framed) == pattern_items[a + q]:
+                    if state_at(items, lo, hi, j, is_framed) == pattern_items[a + q]:
                         hit = j
                         break
                 if hit < 0:

@@ -276,7 +276,7 @@ def _one_row_per_journey(
 ) -> list[dict[str, Any]]:
     """Listed patterns folded into journey families by their session sets, as the gap listing does."""
     from gapfinder.gaps import fold_families, session_sets
-    from gapfinder.mining import containing_sequences
+    from gapfinder.matching import containing_sequences
     from gapfinder.paths import feature_names
 
     names = feature_names(con)

@@ -100,7 +100,7 @@ def _sets_of_listed(ws_path: Path, gaps: list[dict]) -> list[tuple]:
     """The session set of each listed gap, recomputed from the workspace."""
     import numpy as np
 
-    from gapfinder.mining import containing_sequences
+    from gapfinder.matching import containing_sequences
     from gapfinder.patterns import load_sequences
 
     with Workspace(ws_path, read_only=True) as ws:

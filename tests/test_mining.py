@@ -89,7 +89,7 @@ def test_both_engines_agree_on_a_larger_input(max_gap: int | None, closed: bool,
 @given(db=sequences, data=st.data())
 def test_containing_sequences_equals_a_plain_check(engine: str, db: list[list[int]], data: st.DataObject) -> None:
     from gapfinder.coverage import occurs_in
-    from gapfinder.mining import containing_sequences
+    from gapfinder.matching import containing_sequences
 
     patterns = data.draw(
         st.lists(st.lists(st.integers(0, 3), min_size=1, max_size=4).map(tuple), min_size=1, max_size=5)
@@ -112,7 +112,7 @@ def test_containing_sequences_equals_a_plain_check(engine: str, db: list[list[in
 def test_parallel_matcher_gives_the_same_pairs_in_the_same_order_on_one_thread() -> None:
     """The compiled matcher tests (pattern, candidate) chunks on all threads; the pairs it returns,
     and their order (pattern by pattern, sequences ascending), must not depend on the thread count."""
-    from gapfinder.mining import containing_sequences
+    from gapfinder.matching import containing_sequences
     from gapfinder.workspace import use_engine
 
     rng = np.random.default_rng(3)

@@ -1,0 +1,223 @@
+"""Which sequences contain which patterns: the matcher behind coverage, audits, gap evidence and
+pattern occurrences.
+
+A sequence contains a pattern when the pattern's events occur in it in order, with at most
+``max_gap`` other events between consecutive steps (0: a contiguous run; None: any number); a
+framed sequence is read as START (0) → events → END (1). Candidates come from an inverted index
+(only the sequences holding a pattern's rarest event can contain it), and (pattern, candidate)
+pairs are tested in a compiled kernel on all threads (numba ``prange`` over equal chunks, each pair
+writing its own flag, so the result does not depend on the thread count). Small inputs run the
+kernel's own code as plain Python (``gapfinder.compiled.python_twin``).
+"""
+
+from __future__ import annotations
+
+import numba
+import numpy as np
+from numba import njit
+
+from gapfinder.compiled import grow, python_twin
+from gapfinder.mining import SequenceDatabase, sequence_of_position, use_python
+
+__all__ = ["containing_sequences", "state_at"]
+
+_I32 = np.int32
+_I64 = np.int64
+
+
+@njit(cache=True, nogil=True)
+def state_at(items: np.ndarray, lo: int, hi: int, j: int, framed: bool) -> int:  # pragma: no cover - compiled
+    """Event at position j of sequence items[lo:hi]; framed: position 0 is START (0), the last END (1)."""
+    if not framed:
+        return items[lo + j]
+    if j == 0:
+        return 0
+    if j == hi - lo + 1:
+        return 1
+    return items[lo + j - 1]
+
+
+@njit(cache=True, nogil=True)
+def _contains_run(  # pragma: no cover - compiled
+    items: np.ndarray, lo: int, hi: int, n: int, pattern: np.ndarray, a: int, b: int, is_framed: bool
+) -> bool:
+    """Whether pattern[a:b] occurs contiguously in the sequence: compared at each start directly."""
+    for j in range(n - (b - a) + 1):
+        q = 0
+        while q < b - a and state_at(items, lo, hi, j + q, is_framed) == pattern[a + q]:
+            q += 1
+        if q == b - a:
+            return True
+    return False
+
+
+@njit(cache=True, nogil=True)
+def _contains_in_order(  # pragma: no cover - compiled
+    items: np.ndarray,
+    lo: int,
+    hi: int,
+    n: int,
+    pattern: np.ndarray,
+    a: int,
+    b: int,
+    is_framed: bool,
+    gap: int,
+    reach: np.ndarray,
+    nxt: np.ndarray,
+) -> bool:
+    """Whether pattern[a:b] occurs in order with at most ``gap`` events between steps (any when
+    negative): one sweep per step over the positions each earlier step can reach."""
+    any_end = False
+    for j in range(n):
+        reach[j] = state_at(items, lo, hi, j, is_framed) == pattern[a]
+        any_end = any_end or reach[j]
+    for q in range(a + 1, b):
+        if not any_end:
+            break
+        any_end = False
+        window = -1  # the last position from which the next step may still be reached
+        for j in range(n):
+            nxt[j] = False
+            if window >= j and state_at(items, lo, hi, j, is_framed) == pattern[q]:
+                nxt[j] = True
+                any_end = True
+            if reach[j]:
+                window = n if gap < 0 else j + 1 + gap
+        for j in range(n):
+            reach[j] = nxt[j]
+    return any_end
+
+
+MATCH_CHUNKS_PER_THREAD = 16  # candidate chunks per thread: small enough to balance uneven patterns
+
+
+@njit(cache=True, nogil=True, parallel=True)
+def _match_kernel(  # pragma: no cover - compiled
+    items: np.ndarray,
+    starts: np.ndarray,
+    pattern_items: np.ndarray,
+    pattern_starts: np.ndarray,
+    pattern_gaps: np.ndarray,
+    framed: np.ndarray,
+    candidate_ptr: np.ndarray,
+    candidates: np.ndarray,
+    chunk_count: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """(pattern index, sequence index) for every sequence that contains each pattern; pattern p is
+    tried only on ``candidates[candidate_ptr[p]:candidate_ptr[p + 1]]`` (ascending).
+
+    The (pattern, candidate) pairs are cut into ``chunk_count`` equal chunks tested on all threads (each chunk with
+    its own scratch rows); every pair writes only its own flag, so the result is the same in any
+    order, pattern by pattern and candidates ascending."""
+    seq_total = starts.shape[0] - 1
+    longest = 2
+    for s in range(seq_total):
+        longest = max(longest, starts[s + 1] - starts[s] + 2)
+    pair_total = candidates.shape[0]
+    hit = np.zeros(pair_total, dtype=np.bool_)
+    chunk_count = max(1, min(pair_total, chunk_count))
+    for c in numba.prange(chunk_count):
+        reach = np.zeros(longest, dtype=np.bool_)
+        nxt = np.zeros(longest, dtype=np.bool_)
+        first = c * pair_total // chunk_count
+        p = np.searchsorted(candidate_ptr, first, side="right") - 1
+        for t in range(first, (c + 1) * pair_total // chunk_count):
+            while t >= candidate_ptr[p + 1]:
+                p += 1
+            a, b = pattern_starts[p], pattern_starts[p + 1]
+            gap = pattern_gaps[p]
+            is_framed = framed[p]
+            s = candidates[t]
+            lo, hi = starts[s], starts[s + 1]
+            n = hi - lo + (2 if is_framed else 0)
+            if n < b - a:
+                continue
+            if gap == 0:
+                hit[t] = _contains_run(items, lo, hi, n, pattern_items, a, b, is_framed)
+            else:
+                hit[t] = _contains_in_order(items, lo, hi, n, pattern_items, a, b, is_framed, gap, reach, nxt)
+    found = np.nonzero(hit)[0]
+    return np.searchsorted(candidate_ptr, found, side="right") - 1, candidates[found]
+
+
+def containing_sequences(
+    db: SequenceDatabase,
+    patterns: list[tuple[int, ...]],
+    *,
+    max_gaps: list[int | None],
+    framed: list[bool],
+    engine: str = "auto",
+) -> tuple[np.ndarray, np.ndarray]:
+    """Which sequences contain which pattern: arrays (pattern index, sequence index).
+
+    ``max_gaps[i]`` bounds the events between consecutive steps of pattern i (0: contiguous, None:
+    any); with ``framed[i]`` each sequence is read as START (0) → events → END (1), so that
+    transitions and k-paths that begin or end a session can be matched.
+
+    Examples
+    --------
+    >>> db = SequenceDatabase.from_sequences([[2, 3, 4], [2, 4]])
+    >>> containing_sequences(db, [(2, 4), (0, 2, 4, 1)], max_gaps=[0, 0], framed=[False, True])
+    (array([0, 1]), array([1, 1]))
+    """
+    lengths = np.array([len(p) for p in patterns], dtype=np.int64)
+    pattern_starts = np.zeros(len(patterns) + 1, dtype=np.int64)
+    np.cumsum(lengths, out=pattern_starts[1:])
+    flat = np.array([e for p in patterns for e in p], dtype=np.int32) if patterns else np.zeros(0, np.int32)
+    gaps = np.array([-1 if g is None else int(g) for g in max_gaps], dtype=np.int64)
+    if len(patterns) == 0 or db.sequence_count == 0:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    if (lengths == 0).any():
+        raise ValueError("patterns must have at least one event")
+    candidate_ptr, candidates = _candidate_sequences(db, patterns)
+    work = len(candidates) * max(1, len(db.items) // max(db.sequence_count, 1))
+    small = use_python(engine, len(db.items)) and (engine == "python" or work <= 500_000)
+    matcher = _match_python if small else _match_kernel
+    result: tuple[np.ndarray, np.ndarray] = matcher(
+        np.ascontiguousarray(db.items, dtype=_I32),
+        np.ascontiguousarray(db.starts, dtype=_I64),
+        flat,
+        pattern_starts,
+        gaps,
+        np.array(framed, dtype=np.bool_),
+        candidate_ptr,
+        candidates,
+        MATCH_CHUNKS_PER_THREAD * numba.get_num_threads(),
+    )
+    return result
+
+
+def _candidate_sequences(db: SequenceDatabase, patterns: list[tuple[int, ...]]) -> tuple[np.ndarray, np.ndarray]:
+    """Per pattern, the sequences that contain its rarest event (an inverted index): only those can
+    contain the pattern. Patterns made only of START/END (ids 0 and 1, never stored in sequences)
+    are tried on every sequence."""
+    n_seq = db.sequence_count
+    # A stable sort by event (radix sort for int32) keeps each event's positions in sequence order,
+    # so dropping consecutive repeats leaves each (event, sequence) pair once: linear, no hashing.
+    order = np.argsort(db.items, kind="stable")
+    event_of_key = db.items[order].astype(np.int64)
+    sequence_of_key = sequence_of_position(db)[order].astype(np.int64)
+    keep = np.ones(len(order), dtype=bool)
+    keep[1:] = (event_of_key[1:] != event_of_key[:-1]) | (sequence_of_key[1:] != sequence_of_key[:-1])
+    event_of_key, sequence_of_key = event_of_key[keep], sequence_of_key[keep]
+    top_event = int(event_of_key[-1]) + 1 if len(event_of_key) else 0
+    bounds = np.searchsorted(event_of_key, np.arange(top_event + 1))
+    everything = np.arange(n_seq, dtype=np.int64)
+    lists = []
+    for pattern in patterns:
+        real = [e for e in pattern if e > 1]
+        if not real:
+            lists.append(everything)
+            continue
+        if any(e >= top_event for e in real):
+            lists.append(everything[:0])
+            continue
+        rarest = min(real, key=lambda e: bounds[e + 1] - bounds[e])
+        lists.append(sequence_of_key[bounds[rarest] : bounds[rarest + 1]])
+    ptr = np.zeros(len(patterns) + 1, dtype=np.int64)
+    np.cumsum([len(x) for x in lists], out=ptr[1:])
+    flat = np.concatenate(lists).astype(np.int64) if lists else np.zeros(0, np.int64)
+    return ptr, flat
+
+
+_match_python = python_twin(_match_kernel, state_at, grow)
