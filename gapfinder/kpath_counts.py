@@ -21,7 +21,7 @@ first call costs more than counting a few thousand runs.
 from __future__ import annotations
 
 import itertools
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import Any
@@ -40,6 +40,7 @@ _U64 = np.uint64
 
 GROUP_RUNS = 1 << 18  # run slots per group of first pairs (a group's hash table has twice as many)
 DIRECT_PAIR_BITS = 22  # pairs of first states are counting-sorted by their key up to 2**22 keys
+ROUND_POSITIONS = 1 << 22  # positions whose windows are held at once (about 13 bytes each)
 BATCHES_PER_THREAD = 4  # batches of groups handed to the thread pool, per thread
 PYTHON_MAX_WORK = 50_000  # run slots plus signature visits below which plain Python is faster
 ENGINES = ("auto", "compiled", "python")
@@ -353,42 +354,73 @@ def _count_groups(  # pragma: no cover - compiled
 
 
 @njit(cache=True, nogil=True)
+def _pair_key(framed: np.ndarray, g: int, bits: int) -> int:  # pragma: no cover - compiled
+    return (np.int64(framed[g]) << bits) | framed[g + 1]
+
+
+@njit(cache=True, nogil=True)
 def _pair_keys(framed: np.ndarray, path_starts: np.ndarray, bits: int) -> np.ndarray:  # pragma: no cover
     """The key of the first two states of every position but END, in path order."""
     keys = np.empty(framed.shape[0] - (path_starts.shape[0] - 1), dtype=np.int64)
     i = 0
     for p in range(path_starts.shape[0] - 1):
         for g in range(path_starts[p], path_starts[p + 1] - 1):
-            keys[i] = (np.int64(framed[g]) << bits) | framed[g + 1]
+            keys[i] = _pair_key(framed, g, bits)
             i += 1
     return keys
 
 
 @njit(cache=True, nogil=True)
+def _pair_counts(  # pragma: no cover - compiled
+    framed: np.ndarray, path_starts: np.ndarray, bits: int, key_count: int
+) -> np.ndarray:
+    """How many positions (all but END) open with each pair of first two states (key space
+    2**(2 * bits)), without keeping a key per position."""
+    counts = np.zeros(key_count, dtype=np.int64)
+    for p in range(path_starts.shape[0] - 1):
+        for g in range(path_starts[p], path_starts[p + 1] - 1):
+            counts[_pair_key(framed, g, bits)] += 1
+    return counts
+
+
+@njit(cache=True, nogil=True)
 def _windows(  # pragma: no cover - compiled
-    framed: np.ndarray, path_starts: np.ndarray, keys: np.ndarray, slot_of_key: np.ndarray, max_k: int, bits: int
+    framed: np.ndarray,
+    path_starts: np.ndarray,
+    keys: np.ndarray,
+    key_lo: int,
+    key_hi: int,
+    slot_of_key: np.ndarray,
+    size: int,
+    max_k: int,
+    bits: int,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """For every position but END: the packed states from there (at most max_k), how many, and its
-    path, each written at its key's next slot (``slot_of_key``: where each key's windows begin; it is
-    advanced), which sorts them by key and keeps path order within a key."""
-    count = keys.shape[0]
-    windows = np.empty(count, dtype=np.uint64)
-    lengths = np.empty(count, dtype=np.int8)
-    paths = np.empty(count, dtype=np.int32)
+    """The windows of the positions whose pair key is in [key_lo, key_hi): the packed states from
+    there (at most max_k), how many, and the path, each written at its key's next slot
+    (``slot_of_key``, advanced as it fills), which sorts them by key and keeps path order within a
+    key. ``keys`` holds each position's key (renumbered pairs), or is empty when the key is the pair
+    itself."""
+    windows = np.empty(size, dtype=np.uint64)
+    lengths = np.empty(size, dtype=np.int8)
+    paths = np.empty(size, dtype=np.int32)
+    given = keys.shape[0] > 0
     i = 0
     for p in range(path_starts.shape[0] - 1):
         end = path_starts[p + 1]
         for g in range(path_starts[p], end - 1):
+            key = keys[i] if given else _pair_key(framed, g, bits)
+            i += 1
+            if key < key_lo or key >= key_hi:
+                continue
             length = min(max_k, end - g)
             packed = np.uint64(0)
             for j in range(length):
                 packed = (packed << np.uint64(bits)) | np.uint64(framed[g + j])
-            slot = slot_of_key[keys[i]]
-            slot_of_key[keys[i]] += 1
+            slot = slot_of_key[key]
+            slot_of_key[key] += 1
             windows[slot] = packed
             lengths[slot] = length
             paths[slot] = p
-            i += 1
     return windows, lengths, paths
 
 
@@ -424,9 +456,10 @@ def _unpack(codes: np.ndarray, bits: int) -> tuple[np.ndarray, np.ndarray]:  # p
 
 _count_states_python = python_twin(_count_states)
 _count_groups_python = python_twin(_count_groups, grow, _rehash, _add_runs, _append)
-_pair_keys_python = python_twin(_pair_keys)
+_pair_keys_python = python_twin(_pair_keys, _pair_key)
+_pair_counts_python = python_twin(_pair_counts, _pair_key)
 _counting_sort_python = python_twin(_counting_sort)
-_windows_python = python_twin(_windows)
+_windows_python = python_twin(_windows, _pair_key)
 _unpack_python = python_twin(_unpack)
 
 
@@ -444,28 +477,47 @@ def _frame(offsets: np.ndarray, events: np.ndarray) -> tuple[np.ndarray, np.ndar
     return starts, framed
 
 
-def _pair_groups(
-    starts: np.ndarray, framed: np.ndarray, bits: int, max_k: int, kernel: str
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+@dataclass(frozen=True)
+class _Round:
+    """The windows of a range of pair keys, sorted by key, and the bounds of their groups."""
+
+    windows: np.ndarray
+    lengths: np.ndarray
+    paths: np.ndarray
+    group_bounds: np.ndarray
+
+
+def _rounds(starts: np.ndarray, framed: np.ndarray, bits: int, max_k: int, plain: bool) -> Iterator[_Round]:
     """The windows of every position that opens a run of two or more states (all but END; see
-    ``_count_groups``), sorted by their first two states (stably: then by path and position), and
-    the bounds of groups of whole pairs holding about GROUP_RUNS run slots each (a pair larger than
-    that is a group of its own)."""
-    plain = kernel == "python"
-    keys = (_pair_keys_python if plain else _pair_keys)(framed, starts, bits)
+    ``_count_groups``), sorted by their first two states (stably: then by path and position), in
+    rounds of consecutive pair keys holding about ROUND_POSITIONS positions each, so memory is
+    bounded by the round, not by the input; within a round, groups of whole pairs hold about
+    GROUP_RUNS run slots each (a pair larger than that is a group of its own)."""
     if 2 * bits > DIRECT_PAIR_BITS:  # renumber the pairs densely (in key order) for the counting sort
-        keys = np.unique(keys, return_inverse=True)[1].astype(_I64)
-    counts = np.bincount(keys)
-    pair_starts = np.zeros(len(counts), dtype=_I64)
-    np.cumsum(counts[:-1], out=pair_starts[1:])
-    windows, lengths, paths = (_windows_python if plain else _windows)(
-        framed, starts, keys, pair_starts.copy(), max_k, bits
-    )
-    pair_starts = pair_starts[counts > 0]
+        keys = np.unique((_pair_keys_python if plain else _pair_keys)(framed, starts, bits), return_inverse=True)[1]
+        keys = keys.astype(_I64)
+        counts = np.bincount(keys)
+    else:
+        keys = np.zeros(0, dtype=_I64)
+        counts = (_pair_counts_python if plain else _pair_counts)(framed, starts, bits, 1 << (2 * bits))
+    offsets = np.zeros(len(counts) + 1, dtype=_I64)
+    np.cumsum(counts, out=offsets[1:])
+    used = np.flatnonzero(counts)
     per_group = max(GROUP_RUNS // max(max_k - 1, 1), 1)
-    group_of_pair = pair_starts // per_group
-    group_starts = pair_starts[np.flatnonzero(np.diff(group_of_pair, prepend=-1))]
-    return windows, lengths, paths, np.append(group_starts, len(keys)).astype(_I64)
+    group_of_pair = offsets[used] // per_group
+    group_keys = used[np.flatnonzero(np.diff(group_of_pair, prepend=-1))]  # first key of each group
+    round_of_group = offsets[group_keys] // ROUND_POSITIONS
+    round_keys = group_keys[np.flatnonzero(np.diff(round_of_group, prepend=-1))]
+    round_edges = np.append(round_keys, len(counts))
+    windows_of = _windows_python if plain else _windows
+    for key_lo, key_hi in itertools.pairwise(round_edges.tolist()):
+        base = int(offsets[key_lo])
+        size = int(offsets[key_hi]) - base
+        slot_of_key = offsets[:-1] - base
+        windows, lengths, paths = windows_of(framed, starts, keys, key_lo, key_hi, slot_of_key, size, max_k, bits)
+        inside = group_keys[(group_keys >= key_lo) & (group_keys < key_hi)]
+        bounds = np.append(offsets[inside] - base, size).astype(_I64)
+        yield _Round(windows, lengths, paths, bounds)
 
 
 def _signatures_of_paths(
@@ -531,23 +583,19 @@ def count_kpaths(
     seen = np.flatnonzero(occurrences)
     parts = [((_U64(1) << _U64(60)) | seen.astype(_U64), occurrences[seen], state_sessions[seen], users[seen])]
     if max_k >= 2 and len(framed):
-        windows, lengths, paths, group_bounds = _pair_groups(starts, framed, bits, max_k, kernel)
         count_groups: Callable[..., Any] = _count_groups_python if plain else _count_groups
         held = signature[1] >= 0
         taken_by = np.repeat(signature[2], np.diff(signature[0]))[held]
         path_users = np.bincount(signature[1][held], weights=taken_by, minlength=len(sessions)).astype(_I64)
-        head = (windows, lengths, paths, sessions, path_users, group_bounds)
         tail = (*signature, *_signatures_of_paths(signature[0], signature[1], len(starts) - 1, kernel), max_k, bits)
-
-        def count(batch: tuple[int, int]) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-            return count_groups(*head, batch[0], batch[1], *tail)
-
         workers = 1 if plain else max(1, threads or numba.get_num_threads())
-        batches = _batches(group_bounds, workers * BATCHES_PER_THREAD if workers > 1 else 1)
-        if workers == 1 or len(batches) <= 1:
-            parts += [count(b) for b in batches]
-        else:
-            with ThreadPoolExecutor(max_workers=workers) as pool:
-                parts += list(pool.map(count, batches))
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            for part in _rounds(starts, framed, bits, max_k, plain):
+                head = (part.windows, part.lengths, part.paths, sessions, path_users, part.group_bounds)
+                batches = _batches(part.group_bounds, workers * BATCHES_PER_THREAD if workers > 1 else 1)
+                if workers == 1 or len(batches) <= 1:
+                    parts += [count_groups(*head, lo, hi, *tail) for lo, hi in batches]
+                else:
+                    parts += list(pool.map(lambda batch, h=head: count_groups(*h, batch[0], batch[1], *tail), batches))
     codes, occ, sess, usr = (np.concatenate([part[i] for part in parts]) for i in range(4))
     return KpathCounts(codes.astype(_U64), occ.astype(_I64), sess.astype(_I64), usr.astype(_I64), bits, plain)

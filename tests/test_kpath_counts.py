@@ -111,11 +111,13 @@ def test_many_small_groups_and_a_sort_of_sparse_pairs_give_the_same_counts(
     data: tuple, engine: str, threads: int
 ) -> None:
     """Groups of one pair of first states each (the users of a signature are then spread over
-    groups), pairs renumbered before their sort, batches on three threads."""
+    groups), rounds of a few positions, pairs renumbered before their sort, batches on three
+    threads."""
     paths, sessions, signatures, weights, max_k = data
     expected = direct_counts(paths, sessions, signatures, weights, max_k, 4)
     with pytest.MonkeyPatch.context() as patch:
         patch.setattr(kernel, "GROUP_RUNS", 1)
+        patch.setattr(kernel, "ROUND_POSITIONS", 3)
         patch.setattr(kernel, "DIRECT_PAIR_BITS", 2)
         got = kernel_counts(paths, sessions, signatures, weights, max_k=max_k, bits=4, engine=engine, threads=threads)
     assert got == expected
