@@ -140,8 +140,10 @@ def build_sessions(
     # column, else per user); the user keys come from those lists and the sessions are cut from
     # them, so no sort of every event row is needed.
     run(con, "create_event_attributes", error_outcomes=error_outcomes)
+    run(con, "create_event_codes")
     run(con, "drop_event_vocabulary")
-    run(con, "create_event_lists", by_session=use_session_column, noise_events=noise)
+    run(con, "create_event_lists", by_session=use_session_column)
+    run(con, "drop_event_codes")
     run(con, "create_user_keys_from_event_lists")
     run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
     if use_session_column:

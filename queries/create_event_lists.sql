@@ -5,25 +5,21 @@
 -- so the sorted list orders events by time, then event name (ids follow names), then outcome, app
 -- version and platform (event_attributes is numbered in that order); events equal in all of these
 -- are interchangeable, so results do not depend on file order. A hash group by and a sort of each
--- list replace a window sort of every event row with its strings.
--- Reads the temporary view mapped_source, features, event_attributes.
--- Parameters: $by_session (BOOLEAN), $noise_events (list of event names dropped on request).
+-- list replace a window sort of every event row with its strings. The low 48 bits come from
+-- event_codes in one join on (event, outcome, app version, platform); noise events dropped on
+-- request are not in it, so the join drops them.
+-- Reads the temporary view mapped_source, the temporary table event_codes.
+-- Parameters: $by_session (BOOLEAN).
 CREATE OR REPLACE TEMP TABLE event_lists AS
 SELECT
     trim(s.user_id) AS user_id,
     CASE WHEN $by_session THEN coalesce(s.session_id, '') ELSE '' END AS session_id,
-    list_sort(list(
-        (epoch_us(s.ts)::HUGEINT + 9223372036854775808) * 281474976710656
-        + f.event_id * 4294967296
-        + a.attributes_id * 2
-        + a.is_error::INTEGER
-    )) AS events
+    list_sort(list((epoch_us(s.ts)::HUGEINT + 9223372036854775808) * 281474976710656 + c.code)) AS events
 FROM mapped_source AS s
-JOIN features AS f ON f.event = trim(s.event) AND f.event_id >= 2
-JOIN event_attributes AS a
-    ON a.outcome IS NOT DISTINCT FROM s.outcome
-    AND a.app_version IS NOT DISTINCT FROM s.app_version
-    AND a.platform IS NOT DISTINCT FROM s.platform
+JOIN event_codes AS c
+    ON c.event = trim(s.event)
+    AND c.outcome IS NOT DISTINCT FROM s.outcome
+    AND c.app_version IS NOT DISTINCT FROM s.app_version
+    AND c.platform IS NOT DISTINCT FROM s.platform
 WHERE s.user_id IS NOT NULL AND trim(s.user_id) <> '' AND s.ts IS NOT NULL
-  AND NOT list_contains($noise_events, trim(s.event))
 GROUP BY 1, 2;
