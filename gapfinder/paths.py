@@ -64,7 +64,10 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
             f"--max-k {max_k}: with {2**bits - 2:,}+ distinct events a path of {max_k} steps does not "
             f"fit in 60 bits; use --max-k {60 // bits} or less"
         )
+    if not first_row(run(con, "has_temp_table", name="user_paths"))[0]:  # profiling made it, unless resumed
+        run(con, "create_user_paths")
     counts = _count_runs(con, max_k=max_k, bits=bits, include_automated=include_automated)
+    run(con, "drop_user_paths")
     offsets, states = counts.paths()
     frame = pa.table(
         {

@@ -188,6 +188,7 @@ def finish_sessions(con: duckdb.DuckDBPyConnection, *, options: SessionOptions, 
     )
     run(con, "create_full_paths", include_automated=include_automated)
     run(con, "create_sessions")
+    run(con, "create_user_paths")
     run(con, "update_full_path_users", include_automated=include_automated)
     run(con, "drop_raw_sessions")
     run(con, "drop_user_keys")
