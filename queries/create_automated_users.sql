@@ -26,13 +26,20 @@ long_form AS (
     UNION ALL
     SELECT user_key, event_count, 'events per minute', events_per_minute FROM per_user
 ),
-scored AS (
+typical AS (
+    -- one row per statistic: plain aggregates, not a window over every user
     SELECT
-        *,
-        median(value) OVER (PARTITION BY statistic) AS typical_value,
-        median(ln(value)) OVER (PARTITION BY statistic) AS median_log,
-        mad(ln(value)) OVER (PARTITION BY statistic) AS mad_log
+        statistic,
+        median(value) AS typical_value,
+        median(ln(value)) AS median_log,
+        mad(ln(value)) AS mad_log
     FROM long_form
+    GROUP BY statistic
+),
+scored AS (
+    SELECT l.*, t.typical_value, t.median_log, t.mad_log
+    FROM long_form AS l
+    JOIN typical AS t USING (statistic)
 )
 SELECT
     user_key,
