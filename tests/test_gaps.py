@@ -188,3 +188,22 @@ def test_each_gap_shows_complete_sessions_that_hold_it(demo_gaps: dict, suite_wo
             framed = ["START", *example["path"], "END"]
             assert occurs_in(gap["path"] if gap["kind"] != "pattern" else inner, framed, None)
             assert users_of[tuple(example["path"])] >= 5  # above the privacy floor
+
+
+def test_session_sets_are_the_same_from_ordered_or_shuffled_pairs() -> None:
+    """The matcher's order (candidate, then path ascending) skips the sort; any other order sorts."""
+    import numpy as np
+
+    from gapfinder.gaps import session_sets
+
+    rng = np.random.default_rng(1)
+    pairs = sorted(set(zip(rng.integers(0, 20, 800).tolist(), rng.integers(0, 90, 800).tolist(), strict=True)))
+    which = np.array([a for a, _ in pairs])
+    sequence = np.array([b for _, b in pairs])
+    weights = rng.integers(1, 5, 90)
+    ordered = session_sets(which, sequence, weights, 20)
+    shuffle = rng.permutation(len(pairs))
+    shuffled = session_sets(which[shuffle], sequence[shuffle], weights, 20)
+    for n in range(20):
+        assert ordered[n][0].tolist() == shuffled[n][0].tolist() == sorted(b for a, b in pairs if a == n)
+        assert ordered[n][1].tolist() == shuffled[n][1].tolist()
