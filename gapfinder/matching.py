@@ -192,9 +192,12 @@ def _candidate_sequences(db: SequenceDatabase, patterns: list[tuple[int, ...]]) 
     contain the pattern. Patterns made only of START/END (ids 0 and 1, never stored in sequences)
     are tried on every sequence."""
     n_seq = db.sequence_count
-    # A stable sort by event (radix sort for int32) keeps each event's positions in sequence order,
-    # so dropping consecutive repeats leaves each (event, sequence) pair once: linear, no hashing.
-    order = np.argsort(db.items, kind="stable")
+    # A stable sort by event keeps each event's positions in sequence order, so dropping consecutive
+    # repeats leaves each (event, sequence) pair once: no hashing. numpy sorts 16-bit integers by
+    # radix, so ids below 65,536 (all of them: see sessions.MAX_FEATURES) are sorted as uint16
+    # (8.6M events: 0.40 -> 0.18 s).
+    keys = db.items.astype(np.uint16) if db.item_count <= 1 << 16 else db.items
+    order = np.argsort(keys, kind="stable")
     event_of_key = db.items[order].astype(np.int64)
     sequence_of_key = sequence_of_position(db)[order].astype(np.int64)
     keep = np.ones(len(order), dtype=bool)
