@@ -109,7 +109,8 @@ def use_engine(**settings: Any) -> None:
     """Set this process's DuckDB ``threads`` and ``memory_limit`` for every connection opened from now
     on (the CLI calls it with a command's ``--threads`` and ``--memory-limit``); None restores the
     default. Keys not given are left as they are. ``threads`` also bounds the threads of the
-    compiled pattern matcher (numba), so ``--threads 1`` keeps the whole command on one core."""
+    compiled kernels (numba: k-path counts, pattern miner and matcher), so ``--threads 1`` keeps the
+    whole command on one core."""
     unknown = set(settings) - set(_ENGINE)
     if unknown:
         raise TypeError(f"use_engine: unknown setting {sorted(unknown)[0]!r}")

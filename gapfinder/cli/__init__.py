@@ -120,7 +120,7 @@ def workspace_option(func: F) -> F:
         type=click.IntRange(min=1),
         expose_value=False,
         callback=_set_engine,
-        help="Threads for DuckDB and the pattern miner and matcher (default: all cores).",
+        help="Threads for DuckDB, the k-path counter and the pattern miner and matcher (default: all cores).",
     )(func)
     return plain_workspace_option(func)
 

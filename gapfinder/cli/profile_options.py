@@ -147,7 +147,7 @@ def profile_options(func: F) -> F:
         click.option(
             "--threads",
             type=click.IntRange(min=1),
-            help="Threads for DuckDB and the pattern miner and matcher (default: all cores).",
+            help="Threads for DuckDB, the k-path counter and the pattern miner and matcher (default: all cores).",
         ),
         click.option(
             "--memory-limit",
