@@ -32,6 +32,14 @@ def _csv(path: Path, text: str) -> str:
     return str(path)
 
 
+def _linked_demo_blocks(folder: Path) -> str:
+    """A demo --out folder whose block folder is a link to the folder outside the case."""
+    out = folder / "d"
+    out.mkdir()
+    (out / ".gapfinder-demo-blocks").symlink_to(folder.parent / "outside", target_is_directory=True)
+    return str(out)
+
+
 def _bytes(path: Path, data: bytes) -> str:
     path.write_bytes(data)
     return str(path)
@@ -569,6 +577,7 @@ CASES: dict[str, Case] = {
     "coverage-memory-limit-no-unit": lambda f, w: ["coverage", "-w", w, "--memory-limit", "4096"],
     "paths-threads-zero": lambda f, w: ["paths", "-w", w, "--threads", "0"],
     "demo-as-unknown-shape": lambda f, w: ["demo", "--out", str(f / "d"), "--as", "xml"],
+    "demo-block-folder-is-a-link": lambda f, w: ["demo", "--out", _linked_demo_blocks(f), "--events", "2000"],
     "paths-missing-workspace": lambda f, w: ["paths", "-w", str(f / "none.duckdb")],
     "paths-kind-bogus": lambda f, w: ["paths", "-w", w, "--kind", "everything"],
     "paths-min-support-nan": lambda f, w: ["paths", "-w", w, "--min-support", "nan"],
