@@ -20,10 +20,10 @@ import statistics
 import subprocess
 import sys
 import tempfile
-import time
 from pathlib import Path
 
 from _synthetic import write_telemetry
+from _timing import timed
 
 FLOOR = """
 import duckdb, sys
@@ -48,16 +48,6 @@ con.execute("SET threads = 2")
 build_paths(con, max_k=5)
 con.close()
 """
-
-
-def timed(cmd: list[str]) -> tuple[float, float]:
-    """(seconds, peak RSS in GB) of one child process."""
-    start = time.perf_counter()
-    done = subprocess.run(["/usr/bin/time", "-f", "%M", *cmd], capture_output=True, text=True)
-    seconds = time.perf_counter() - start
-    if done.returncode != 0:
-        raise SystemExit(f"{' '.join(cmd[:3])} failed: {done.stderr[-1500:]}")
-    return seconds, int(done.stderr.strip().splitlines()[-1]) / 1024 / 1024
 
 
 def main() -> None:

@@ -19,10 +19,10 @@ import statistics
 import subprocess
 import sys
 import tempfile
-import time
 from pathlib import Path
 
 from _synthetic import write_telemetry
+from _timing import timed
 
 FLOOR = """
 import duckdb, sys
@@ -30,16 +30,6 @@ con = duckdb.connect(sys.argv[1], read_only=True)
 con.execute("SELECT a, b, count(*) FROM (SELECT p[i] AS a, p[i + 1] AS b FROM (SELECT path AS p, "
             "unnest(range(1, len(path))) AS i FROM sessions WHERE NOT is_automated)) GROUP BY ALL").fetchall()
 """
-
-
-def timed(cmd: list[str]) -> tuple[float, float]:
-    """(seconds, peak RSS in GB) of one child process."""
-    start = time.perf_counter()
-    done = subprocess.run(["/usr/bin/time", "-f", "%M", *cmd], capture_output=True, text=True)
-    seconds = time.perf_counter() - start
-    if done.returncode != 0:
-        raise SystemExit(f"{' '.join(cmd)} failed: {done.stderr[-1500:]}")
-    return seconds, int(done.stderr.strip().splitlines()[-1]) / 1024 / 1024
 
 
 def main() -> None:
