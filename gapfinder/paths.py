@@ -20,7 +20,7 @@ from gapfinder.disclosure import complementary_suppression, kpath_parents
 from gapfinder.errors import ConfigError
 from gapfinder.kpath_counts import KpathCounts, count_kpaths
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, registered, run
+from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, list_arrays, registered, run
 
 __all__ = [
     "DEFAULT_MAX_K",
@@ -87,9 +87,9 @@ def _count_runs(con: duckdb.DuckDBPyConnection, *, max_k: int, bits: int, includ
     """The k-path counts over the distinct paths that count and the users' sets of them."""
     paths = fetch_arrow(con, "list_counted_full_paths")
     signatures = fetch_arrow(con, "list_path_signatures", include_automated=include_automated)
-    path_lists = _flat_lists(paths.column("path"))
+    path_lists = list_arrays(paths.column("path"))
     path_ids = paths.column("path_id").to_numpy()
-    signature_lists = _flat_lists(signatures.column("signature"))
+    signature_lists = list_arrays(signatures.column("signature"))
     signature_path_ids = signature_lists[1].astype(np.int64)
     top = int(max(path_ids.max(initial=0), signature_path_ids.max(initial=0)))
     index_of_id = np.full(top + 1, -1, dtype=np.int32)
@@ -104,21 +104,6 @@ def _count_runs(con: duckdb.DuckDBPyConnection, *, max_k: int, bits: int, includ
         max_k=max_k,
         bits=bits,
     )
-
-
-def _flat_lists(column: pa.ChunkedArray) -> tuple[np.ndarray, np.ndarray]:
-    """(offsets, values) of a list column without nulls, chunk by chunk (no combined copy)."""
-    offsets = [np.zeros(1, dtype=np.int64)]
-    values = [np.zeros(0, dtype=np.int32)]
-    base = 0
-    for chunk in column.chunks:
-        if len(chunk) == 0:
-            continue
-        bounds = chunk.offsets.to_numpy().astype(np.int64)
-        values.append(chunk.values.to_numpy(zero_copy_only=False)[bounds[0] : bounds[-1]])
-        offsets.append(bounds[1:] - bounds[0] + base)
-        base += int(bounds[-1] - bounds[0])
-    return np.concatenate(offsets), np.concatenate(values)
 
 
 def feature_names(con: duckdb.DuckDBPyConnection) -> list[str]:

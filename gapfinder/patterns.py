@@ -21,7 +21,7 @@ from gapfinder.errors import ConfigError
 from gapfinder.mining import DEFAULT_MAX_PATTERNS, PatternSet, SequenceDatabase, mine_patterns, resolve_min_support
 from gapfinder.paths import Listing, feature_names
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, registered, run
+from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, list_arrays, registered, run
 from gapfinder.workspace import StageRecord, Workspace, stage_clock
 
 __all__ = [
@@ -90,12 +90,8 @@ def profile_included_automated(con: duckdb.DuckDBPyConnection) -> bool:
 def load_sequences(con: duckdb.DuckDBPyConnection, *, with_users: bool = True) -> SequenceDatabase:
     """The workspace's distinct session paths as a SequenceDatabase (arrays straight from Arrow)."""
     paths = fetch_arrow(con, "list_mining_paths")
-    path_column = paths.column("path").combine_chunks()
-    if isinstance(path_column, pa.ChunkedArray):  # an empty table
-        path_column = pa.array([], type=pa.list_(pa.int32()))
-    items = path_column.flatten().to_numpy(zero_copy_only=False).astype(np.int32)
-    offsets = path_column.offsets.to_numpy(zero_copy_only=False).astype(np.int64)
-    starts = offsets - offsets[0] if len(offsets) else np.zeros(1, dtype=np.int64)
+    starts, items = list_arrays(paths.column("path"))
+    items = items.astype(np.int32)
     weights = paths.column("sessions").to_numpy().astype(np.int64)
     path_ids = paths.column("path_id").to_numpy().astype(np.int64)
     if not with_users or len(weights) == 0:

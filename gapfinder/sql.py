@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import Any
 
 import duckdb
+import numpy as np
 
 from gapfinder.errors import QueryError, describe_database_error
 
@@ -88,3 +89,19 @@ def registered(con: duckdb.DuckDBPyConnection, **frames: Any) -> Iterator[duckdb
     finally:
         for name in frames:
             con.unregister(name)
+
+
+def list_arrays(column: Any) -> tuple[np.ndarray, np.ndarray]:
+    """(offsets from 0, values) of an Arrow list column without nulls, read chunk by chunk (no combined
+    copy): the flat arrays the compiled kernels take."""
+    offsets = [np.zeros(1, dtype=np.int64)]
+    values = [np.zeros(0, dtype=np.int32)]
+    base = 0
+    for chunk in column.chunks:
+        if len(chunk) == 0:
+            continue
+        bounds = chunk.offsets.to_numpy().astype(np.int64)
+        values.append(chunk.values.to_numpy(zero_copy_only=False)[bounds[0] : bounds[-1]])
+        offsets.append(bounds[1:] - bounds[0] + base)
+        base += int(bounds[-1] - bounds[0])
+    return np.concatenate(offsets), np.concatenate(values)
