@@ -16,6 +16,7 @@ import duckdb
 
 from gapfinder.errors import ConfigError, InputError
 from gapfinder.privacy import hmac_pads
+from gapfinder.session_cuts import write_raw_sessions
 from gapfinder.sql import fetch_dicts, first_row, run
 
 __all__ = [
@@ -146,22 +147,12 @@ def build_sessions(
     run(con, "drop_event_codes")
     run(con, "create_user_keys_from_event_lists")
     run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
-    if use_session_column:
-        run(
-            con,
-            "create_raw_sessions_by_session_column",
-            collapse_repeats=options.collapse_repeats,
-            max_events=options.max_events,
-        )
-    else:
-        run(
-            con,
-            "create_raw_sessions_by_idle_gap",
-            idle_us=round(options.idle_minutes * 60 * 1_000_000),
-            collapse_repeats=options.collapse_repeats,
-            max_events=options.max_events,
-        )
-    run(con, "drop_event_lists")
+    write_raw_sessions(
+        con,
+        idle_us=None if use_session_column else round(options.idle_minutes * 60 * 1_000_000),
+        collapse_repeats=options.collapse_repeats,
+        max_events=options.max_events,
+    )
     run(con, "drop_event_attributes")
     finish_sessions(con, options=options, include_automated=include_automated)
 
