@@ -323,6 +323,9 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
     return shown
 
 
+_FRAME_BLOCK_ROWS = 1 << 20  # (candidate, path) pairs masked at a time in _occurrence_frame
+
+
 def _occurrence_frame(
     pool: list[_Candidate],
     which: np.ndarray,
@@ -336,30 +339,43 @@ def _occurrence_frame(
 
     Built column-wise: a step's position is kept when it is an event of the path (1..length; START
     and END give NULL step positions and no event position)."""
-    # int32 and in-place masks throughout: at 10M high-entropy events there are 12M pairs
-    lengths = (starts[sequence + 1] - starts[sequence]).astype(np.int32)
+    # At 10M high-entropy events there are 12M pairs: the masks are made a block of rows at a time,
+    # so the temporaries are a block's, not the whole frame's (the peak of `run` fell 0.5 GB).
     k = np.array([len(c.path) for c in pool], dtype=np.int32)[which] if len(which) else np.zeros(0, np.int32)
     width = positions.shape[1] if positions.ndim == 2 else 0
-    at = positions.astype(np.int32)
-    steps = np.arange(width, dtype=np.int32)[None, :] < k[:, None]
-    in_path = at >= 1
-    in_path &= at <= lengths[:, None]
-    in_path &= steps
-    del lengths
     step_offsets = np.zeros(len(which) + 1, dtype=np.int32)
     np.cumsum(k, out=step_offsets[1:])
+    # Filled block by block; events are at most the steps, so both fit the steps' length.
+    step_values = np.empty(int(step_offsets[-1]), dtype=np.int32)
+    step_missing = np.empty(int(step_offsets[-1]), dtype=np.bool_)
+    event_values = np.empty(int(step_offsets[-1]), dtype=np.int32)
     event_offsets = np.zeros(len(which) + 1, dtype=np.int32)
-    np.cumsum(in_path.sum(axis=1, dtype=np.int32), out=event_offsets[1:])
-    step_values = pa.array(at[steps], mask=~in_path[steps])
-    event_values = pa.array(at[in_path])
-    del at, steps, in_path
+    steps_before = np.arange(width, dtype=np.int32)[None, :]
+    filled = 0
+    for lo in range(0, len(which), _FRAME_BLOCK_ROWS):
+        hi = min(lo + _FRAME_BLOCK_ROWS, len(which))
+        at = positions[lo:hi].astype(np.int32, copy=False)
+        lengths = (starts[sequence[lo:hi] + 1] - starts[sequence[lo:hi]]).astype(np.int32)
+        steps = steps_before < k[lo:hi, None]
+        in_path = at >= 1
+        in_path &= at <= lengths[:, None]
+        in_path &= steps
+        step_values[step_offsets[lo] : step_offsets[hi]] = at[steps]
+        step_missing[step_offsets[lo] : step_offsets[hi]] = ~in_path[steps]
+        events = at[in_path]
+        event_values[filled : filled + len(events)] = events
+        filled += len(events)
+        np.cumsum(in_path.sum(axis=1, dtype=np.int32), out=event_offsets[lo + 1 : hi + 1])
+        event_offsets[lo + 1 : hi + 1] += event_offsets[lo]
+    steps_array = pa.array(step_values, mask=step_missing)
+    events_array = pa.array(event_values[:filled])
     return pa.table(
         {
             "candidate": pa.array(which, pa.int64()),
             "path_id": pa.array(path_ids, pa.int64()),
-            "step_positions": pa.ListArray.from_arrays(pa.array(step_offsets), step_values),
-            "event_positions": pa.ListArray.from_arrays(pa.array(event_offsets), event_values),
-            "after_position": pa.array(after.astype(np.int32), mask=after <= 0),
+            "step_positions": pa.ListArray.from_arrays(pa.array(step_offsets), steps_array),
+            "event_positions": pa.ListArray.from_arrays(pa.array(event_offsets), events_array),
+            "after_position": pa.array(after.astype(np.int32, copy=False), mask=after <= 0),
         }
     )
 

@@ -113,8 +113,9 @@ def first_occurrences(
     np.cumsum(lengths, out=pattern_starts[1:])
     flat = np.array([e for p in patterns for e in p], dtype=np.int32) if patterns else np.zeros(0, np.int32)
     gaps = np.array([-1 if g is None else int(g) for g in max_gaps], dtype=np.int64)
-    out = np.full((len(which), width), -1, dtype=np.int64)
-    after = np.full(len(which), -1, dtype=np.int64)
+    # int32: positions stay below the session cap, and at 10M high-entropy events there are 12M pairs
+    out = np.full((len(which), width), -1, dtype=np.int32)
+    after = np.full(len(which), -1, dtype=np.int32)
     if len(which):
         _occurrence_kernel(
             np.ascontiguousarray(db.items, dtype=np.int32),
