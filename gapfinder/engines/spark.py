@@ -5,11 +5,12 @@ local), maps them onto the canonical columns (``spark_source``), counts the rows
 reason and forms the sessions with the queries under ``queries/spark/`` — hand-written twins of the
 DuckDB queries, because an automatic dialect rewrite of list slicing, 1-based lambdas and packed
 integers was found to give wrong answers without an error. What comes back is small or per session:
-the distinct event names and their counts (the feature-key rules run on them in DuckDB), the users
-(key and label), and one row per session, written by Spark's executors as Parquet into a staging
-folder that this machine reads. Automated-traffic flags, distinct paths, k-paths and the usage
-model are then built in DuckDB from the sessions, exactly as on one machine, so every later stage
-runs unchanged.
+the distinct event names and their counts (the feature-key rules run on them in DuckDB) and one
+row per session with its user id, written by Spark's executors as Parquet into a staging folder
+that this machine reads; the users are numbered and labelled in DuckDB from those rows, so Spark
+reads the events once for the counts and once for the sessions. Automated-traffic flags, distinct
+paths, k-paths and the usage model are then built in DuckDB from the sessions, exactly as on one
+machine, so every later stage runs unchanged.
 
 Local files of other formats (CSV, NDJSON, OpenTelemetry, XES) are first mapped by DuckDB's readers
 into Parquet in a scratch folder, and Spark reads that.
@@ -331,18 +332,6 @@ class SparkEngine:
         with _spark_reading(self._label):
             features = fetch_arrow(con, "list_feature_ids")
             spark.createDataFrame(features).hint("broadcast").createOrReplaceTempView("features")
-            # The distinct users are written once and read back, so the two passes that use them agree.
-            keys_folder = staging.folder("user_keys")
-            spark_sql(spark, "spark/create_user_keys", noise_events=noise).write.parquet(keys_folder)
-            spark.read.parquet(keys_folder).createOrReplaceTempView("user_keys")
-            inner, outer = hmac_pads(pseudonymize_key) if pseudonymize_key else (None, None)
-            labels = spark_sql(
-                spark,
-                "spark/create_user_labels",
-                inner_pad=bytearray(inner) if inner else None,
-                outer_pad=bytearray(outer) if outer else None,
-            )
-            labels.write.parquet(staging.folder("users"))
             shared = {
                 "collapse_repeats": options.collapse_repeats,
                 "max_events": options.max_events,
@@ -355,13 +344,18 @@ class SparkEngine:
                 idle_us = round(options.idle_minutes * 60 * 1_000_000)
                 sessions = spark_sql(spark, "spark/create_raw_sessions_by_idle_gap", idle_us=idle_us, **shared)
             sessions.write.parquet(staging.folder("raw_sessions"))
-        run(con, "load_engine_users", files=staging.parquet_files("users"))
-        run(con, "load_engine_raw_sessions", files=staging.parquet_files("raw_sessions"))
+        # One pass over the events: the sessions carry user ids, and the users are numbered (and
+        # pseudonymized) here from those rows, the way the DuckDB engine numbers them.
+        session_files = staging.parquet_files("raw_sessions")
+        run(con, "create_user_keys_from_engine_sessions", files=session_files)
+        inner, outer = hmac_pads(pseudonymize_key) if pseudonymize_key else (None, None)
+        run(con, "create_user_labels", inner_pad=inner, outer_pad=outer)
+        run(con, "load_engine_raw_sessions", files=session_files)
         finish_sessions(con, options=options, include_automated=include_automated)
 
     def close(self) -> None:
         if self._spark is not None:
-            for view in ("mapped_source", "features", "user_keys"):
+            for view in ("mapped_source", "features"):
                 with contextlib.suppress(Exception):
                     self._spark.catalog.dropTempView(view)
         if self._staging is not None:

@@ -1,11 +1,13 @@
 -- Returns one row per session of the input's own session column: the Spark SQL twin of
--- queries/create_raw_sessions_by_session_column.sql, with the same columns and meaning. Sessions
+-- queries/create_raw_sessions_by_session_column.sql, with the same columns and meaning except that
+-- each session carries its trimmed user id, not a key: DuckDB numbers the users from these rows
+-- (queries/create_user_keys_from_engine_sessions.sql), so Spark reads the events once. Sessions
 -- are the distinct (user, session id) pairs, numbered within the user by their first event, then
--- session id; events are ordered by timestamp, event id, outcome, app version, platform. Reads mapped_source, features,
--- user_keys. Parameters: :collapse_repeats, :max_events, :noise_events, :error_outcomes.
+-- session id; events are ordered by timestamp, event id, outcome, app version, platform. Reads mapped_source, features.
+-- Parameters: :collapse_repeats, :max_events, :noise_events, :error_outcomes.
 WITH encoded AS (
     SELECT
-        u.user_key,
+        trim(s.user_id) AS user_id,
         coalesce(s.session_id, '') AS session_id,
         f.event_id,
         s.ts,
@@ -14,9 +16,9 @@ WITH encoded AS (
         s.app_version,
         s.platform
     FROM mapped_source AS s
-    JOIN user_keys AS u ON u.user_id = trim(s.user_id)
     JOIN features AS f ON f.event = trim(s.event) AND f.event_id >= 2
-    WHERE s.ts IS NOT NULL AND NOT array_contains(CAST(:noise_events AS ARRAY<STRING>), trim(s.event))
+    WHERE s.ts IS NOT NULL AND s.user_id IS NOT NULL AND trim(s.user_id) <> ''
+      AND NOT array_contains(CAST(:noise_events AS ARRAY<STRING>), trim(s.event))
 ),
 ordered AS (
     SELECT
@@ -24,12 +26,12 @@ ordered AS (
         row_number() OVER w AS seq,
         lag(event_id) OVER w AS prev_event_id
     FROM encoded
-    WINDOW w AS (PARTITION BY user_key, session_id ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
+    WINDOW w AS (PARTITION BY user_id, session_id ORDER BY ts, event_id, outcome NULLS FIRST, app_version NULLS FIRST,
         platform NULLS FIRST)
 ),
 grouped AS (
     SELECT
-        user_key,
+        user_id,
         session_id,
         min(ts) AS started_at,
         max(ts) AS ended_at,
@@ -38,7 +40,7 @@ grouped AS (
             AS first_event
     FROM ordered
     WHERE NOT (:collapse_repeats AND prev_event_id IS NOT NULL AND event_id = prev_event_id)
-    GROUP BY user_key, session_id
+    GROUP BY user_id, session_id
 ),
 capped AS (
     SELECT
@@ -47,8 +49,8 @@ capped AS (
     FROM grouped
 )
 SELECT
-    user_key,
-    CAST(row_number() OVER (PARTITION BY user_key ORDER BY started_at, session_id) AS INT) AS session_no,
+    user_id,
+    CAST(row_number() OVER (PARTITION BY user_id ORDER BY started_at, session_id) AS INT) AS session_no,
     started_at,
     ended_at,
     size(kept) AS event_count,
