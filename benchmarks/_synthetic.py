@@ -34,13 +34,29 @@ def synthetic_sessions(
     steps[0] = rng.choice(feature_count, size=session_count, p=popularity)
     for t in range(1, max_length):
         u = rng.random(session_count)
-        rows = cumulative[steps[t - 1]]
-        steps[t] = np.minimum((rows < u[:, None]).sum(axis=1), feature_count - 1)
+        steps[t] = _next_steps(steps[t - 1], u, cumulative)
     keep = np.arange(max_length)[:, None] < lengths[None, :]
     items = steps.T[keep.T].astype(np.int32)
     starts = np.zeros(session_count + 1, dtype=np.int64)
     np.cumsum(lengths, out=starts[1:])
     return SequenceDatabase(items, starts, np.ones(session_count, dtype=np.int64))
+
+
+def _next_steps(previous: np.ndarray, u: np.ndarray, cumulative: np.ndarray) -> np.ndarray:
+    """Each session's next feature: the first column of its previous feature's cumulative row that
+    reaches its draw ``u`` (the count of entries below ``u``, capped at the last feature).
+
+    Sessions are grouped by previous feature and each group searched in its own row, so memory stays
+    linear in the number of sessions (indexing ``cumulative`` by session would take 200 floats each)."""
+    feature_count = cumulative.shape[0]
+    order = np.argsort(previous, kind="stable")
+    bounds = np.searchsorted(previous[order], np.arange(feature_count + 1), side="left")
+    out = np.empty_like(previous)
+    for feature in range(feature_count):
+        members = order[bounds[feature] : bounds[feature + 1]]
+        if len(members):
+            out[members] = np.searchsorted(cumulative[feature], u[members], side="left")
+    return np.minimum(out, feature_count - 1)
 
 
 def as_lists(db: SequenceDatabase) -> list[list[int]]:
