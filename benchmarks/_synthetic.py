@@ -72,7 +72,9 @@ def as_lists(db: SequenceDatabase) -> list[list[int]]:
 def synthetic_telemetry(path: Path, events: int, *, seed: int = 1) -> Path:
     """Write about ``events`` events of synthetic sessions as telemetry (user_id, ts, event) to Parquet.
 
-    Two sessions per user, an hour apart (so idle gaps split them), 20 s between events."""
+    Two sessions per user, an hour apart (so idle gaps split them), 20 s between events; users
+    start at spread-out seconds of a 90-day window, so any size stays inside the years telemetry
+    may carry (laid end to end, 50M events would have run to the year 2311)."""
     import pyarrow as pa
     import pyarrow.parquet as pq
 
@@ -81,7 +83,9 @@ def synthetic_telemetry(path: Path, events: int, *, seed: int = 1) -> Path:
     session = np.repeat(np.arange(len(lengths)), lengths)
     position = np.arange(len(db.items)) - db.starts[session]
     user = (session // 2).astype(np.int32)
-    offsets = session.astype(np.int64) * 3_600_000_000 + position * 20_000_000
+    window_s = 90 * 86_400
+    user_start_s = (user.astype(np.int64) * 7_919) % window_s  # 7,919 is prime: users spread evenly
+    offsets = (user_start_s + (session % 2) * 3_600) * 1_000_000 + position * 20_000_000
     ts = np.datetime64("2026-01-01", "us") + offsets.astype("timedelta64[us]")
     user_labels = pa.array([f"u{i:07d}" for i in range(int(user.max()) + 1)])
     names = pa.array([f"feature_{i:03d}" for i in range(int(db.items.max()) + 1)])

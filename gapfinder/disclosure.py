@@ -31,6 +31,8 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
+from gapfinder.compiled import grow
+
 __all__ = ["complementary_suppression", "kpath_parents"]
 
 ENGINES = ("auto", "compiled", "vectorized")
@@ -48,6 +50,11 @@ def kpath_parents(codes: np.ndarray, bits: int) -> tuple[np.ndarray, np.ndarray]
     then one event id per ``bits`` bits.
     """
     codes = np.asarray(codes, dtype=np.uint64)
+    if len(codes) >= COMPILED_MIN_CELLS:  # one pass, no temporaries of the codes' size
+        prefix_out = np.empty(len(codes), dtype=np.uint64)
+        suffix_out = np.empty(len(codes), dtype=np.uint64)
+        _kpath_parents_compiled(codes, bits, prefix_out, suffix_out)
+        return prefix_out, suffix_out
     k = (codes >> _K_SHIFT).astype(np.intp)
     payload = codes & np.uint64((1 << 60) - 1)
     # per k (0..15): the parent's k in the top bits, and the mask keeping the last k - 1 states;
@@ -63,6 +70,26 @@ def kpath_parents(codes: np.ndarray, bits: int) -> tuple[np.ndarray, np.ndarray]
     prefix[single] = ROOT
     suffix[single] = ROOT
     return prefix, suffix
+
+
+@njit(cache=True, nogil=True)
+def _kpath_parents_compiled(
+    codes: np.ndarray, bits: int, prefix: np.ndarray, suffix: np.ndarray
+) -> None:  # pragma: no cover
+    """kpath_parents one code at a time (tests compare it with the numpy version)."""
+    payload_mask = np.uint64((1 << 60) - 1)
+    for i in range(codes.shape[0]):
+        code = codes[i]
+        k = np.int64(code >> np.uint64(60))
+        if k <= 1:
+            prefix[i] = np.uint64(0)
+            suffix[i] = np.uint64(0)
+            continue
+        payload = code & payload_mask
+        top = np.uint64(k - 1) << np.uint64(60)
+        width = min((k - 1) * bits, 63)
+        prefix[i] = top | (payload >> np.uint64(bits))
+        suffix[i] = top | (payload & ((np.uint64(1) << np.uint64(width)) - np.uint64(1)))
 
 
 def complementary_suppression(
@@ -92,9 +119,10 @@ def complementary_suppression(
     if not hidden.any() or len(keys) == 0:
         return hidden
     keys = np.asarray(keys)
-    by_key = np.argsort(keys, kind="stable")
     if engine == "compiled" or (engine == "auto" and len(keys) >= COMPILED_MIN_CELLS):
-        return _suppress_compiled(keys, np.asarray(values), hidden, groups, by_key, max_rounds)
+        order = None if _is_ascending(keys) else np.argsort(keys, kind="stable")
+        return _suppress_compiled(keys, np.asarray(values), hidden, groups, order, max_rounds)
+    by_key = np.argsort(keys, kind="stable")
     families = [_Family.of(np.asarray(g), np.asarray(values), keys, by_key) for g in groups]
     for _ in range(max_rounds):
         changed = False
@@ -154,37 +182,78 @@ class _Family:
         return changed
 
 
-def _numbered_groups(group: np.ndarray, keys: np.ndarray, by_key: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Each row's group number and each group's parent row (or -1): a group whose key is a row's key
-    takes that row's number, the others are numbered after the rows in key order."""
+def _numbered_groups(group: np.ndarray, keys: np.ndarray, by_key: np.ndarray | None) -> tuple[np.ndarray, int]:
+    """Each row's group number, and how many groups have no parent row: a group whose key is a row's
+    key takes that row's number (so group g < len(keys) has parent row g), the others are numbered
+    after the rows in key order. ``by_key`` None: ``keys`` are ascending already (no copies)."""
     count = len(keys)
-    sorted_keys = keys[by_key]
-    queries = group[by_key]  # in key order, as k-path parents come in long ascending runs
-    found = np.minimum(_search_runs(sorted_keys, queries), count - 1)
-    is_row = sorted_keys[found] == queries
-    numbers = by_key[found].astype(np.int64)
-    absent, absent_of = np.unique(queries[~is_row], return_inverse=True)
-    numbers[~is_row] = count + absent_of.reshape(-1)
+    sorted_keys = keys if by_key is None else keys[by_key]
+    queries = group if by_key is None else group[by_key]  # in key order: k-path parents ascend in runs
+    numbers = _search_runs(sorted_keys, queries)
+    orphans = _mark_rows(sorted_keys, queries, numbers)
+    if len(orphans):
+        absent, absent_of = np.unique(queries[orphans], return_inverse=True)
+        numbers[orphans] = count + absent_of.reshape(-1)
+    else:
+        absent = queries[:0]
+    if by_key is None:
+        return numbers, len(absent)
     group_of = np.empty(count, dtype=np.int64)
-    group_of[by_key] = numbers
-    parent = np.concatenate([np.arange(count, dtype=np.int64), np.full(len(absent), -1, dtype=np.int64)])
-    return group_of, parent
+    group_of[by_key] = np.where(numbers < count, by_key[np.minimum(numbers, count - 1)], numbers)
+    return group_of, len(absent)
 
 
 def _suppress_compiled(
-    keys: np.ndarray, values: np.ndarray, hidden: np.ndarray, groups: list[np.ndarray], by_key: np.ndarray, rounds: int
+    keys: np.ndarray,
+    values: np.ndarray,
+    hidden: np.ndarray,
+    groups: list[np.ndarray],
+    by_key: np.ndarray | None,
+    rounds: int,
 ) -> np.ndarray:
-    families = [_numbered_groups(np.asarray(g).astype(keys.dtype), keys, by_key) for g in groups]
-    largest = max(len(parent) for _, parent in families)
+    families = []
+    for g in groups:
+        families.append(_numbered_groups(np.asarray(g).astype(keys.dtype, copy=False), keys, by_key))
+    largest = len(keys) + max((absent for _, absent in families), default=0)
     hidden_count = np.zeros(largest, dtype=np.int64)
     smallest_visible = np.full(largest, -1, dtype=np.int64)
     for _ in range(rounds):
         changed = False
-        for group_of, parent in families:
-            changed |= _extend_compiled(group_of, parent, values, keys, hidden, hidden_count, smallest_visible)
+        for group_of, absent in families:
+            changed |= _extend_compiled(
+                group_of, len(keys) + absent, len(keys), values, keys, hidden, hidden_count, smallest_visible
+            )
         if not changed:
             break
     return hidden
+
+
+@njit(cache=True, nogil=True)
+def _is_ascending(keys: np.ndarray) -> bool:  # pragma: no cover - compiled
+    ascending = True
+    for i in range(1, keys.shape[0]):
+        if keys[i] <= keys[i - 1]:
+            ascending = False
+            break
+    return ascending
+
+
+@njit(cache=True, nogil=True)
+def _mark_rows(sorted_keys: np.ndarray, queries: np.ndarray, positions: np.ndarray) -> np.ndarray:  # pragma: no cover
+    """Keep ``positions[i]`` where ``sorted_keys`` holds ``queries[i]`` there; return the other i
+    (queries that name no row), in order."""
+    count = sorted_keys.shape[0]
+    orphans = np.empty(16, dtype=np.int64)
+    n = 0
+    for i in range(queries.shape[0]):
+        p = positions[i]
+        if p < count and sorted_keys[p] == queries[i]:
+            continue
+        if n == orphans.shape[0]:
+            orphans = grow(orphans, n + 1)
+        orphans[n] = i
+        n += 1
+    return orphans[:n].copy()
 
 
 @njit(cache=True, nogil=True)
@@ -228,7 +297,8 @@ def _search_runs(sorted_keys: np.ndarray, queries: np.ndarray) -> np.ndarray:  #
 @njit(cache=True, nogil=True)
 def _extend_compiled(
     group_of: np.ndarray,
-    parent: np.ndarray,
+    group_count: int,
+    row_count: int,
     values: np.ndarray,
     keys: np.ndarray,
     hidden: np.ndarray,
@@ -237,8 +307,8 @@ def _extend_compiled(
 ) -> bool:  # pragma: no cover - compiled; the tests compare it with the numpy passes and the rule by hand
     """One pass of the rule over one family (as _Family.extend): counts are taken before any change,
     then each group with one hidden member hides its smallest visible member (by value, then key),
-    and the groups with none hide their parent. Scratch arrays hold at least one slot per group."""
-    group_count = parent.shape[0]
+    and the groups with none hide their parent (group g's parent is row g when g < row_count).
+    Scratch arrays hold at least one slot per group."""
     for g in range(group_count):
         hidden_count[g] = 0
         smallest_visible[g] = -1
@@ -257,9 +327,7 @@ def _extend_compiled(
             hidden[smallest_visible[g]] = True
             changed = True
     for g in range(group_count):
-        if hidden_count[g] == 1 and smallest_visible[g] < 0:
-            p = parent[g]
-            if p >= 0 and not hidden[p]:
-                hidden[p] = True
-                changed = True
+        if hidden_count[g] == 1 and smallest_visible[g] < 0 and g < row_count and not hidden[g]:
+            hidden[g] = True
+            changed = True
     return changed

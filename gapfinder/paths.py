@@ -120,14 +120,14 @@ def hidden_kpath_codes(con: duckdb.DuckDBPyConnection, *, min_users: int) -> np.
     """Packed codes of the k-paths no listing may show: under the user floor, or hidden to protect
     one that is (``gapfinder.disclosure``). The same cells are hidden in every listing."""
     cells = fetch_arrow(con, "list_kpath_cells")
-    codes = cells.column("code").to_numpy().astype(np.uint64)
+    codes = cells.column("code").to_numpy().astype(np.uint64, copy=False)
     if len(codes) == 0:
         return codes
-    users = cells.column("users").to_numpy()
+    primary = cells.column("users").to_numpy() < min_users
     occurrences = cells.column("occurrences").to_numpy()
     counted = run(con, "count_features").fetchall()
     prefix, suffix = kpath_parents(codes, id_bits(int(counted[0][0]) if counted else 2))
-    hidden = complementary_suppression(codes, occurrences, users < min_users, [prefix, suffix])
+    hidden = complementary_suppression(codes, occurrences, primary, [prefix, suffix])
     return codes[hidden]
 
 

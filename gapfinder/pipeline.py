@@ -194,6 +194,10 @@ def _reading_line(reading: dict[str, Any]) -> str:
     parts = [
         f"Telemetry: {reading.get('rows_read', 0):,} rows of {reading.get('format', '')} ({reading.get('label', '')})"
     ]
+    rejected = reading.get("rejected") or {}
+    if rejected:
+        counted = ", ".join(f"{n:,} {reason}" for reason, n in sorted(rejected.items()))
+        parts.append(f"rows left out: {counted}")
     parts += list(reading.get("notes") or [])
     if reading.get("feature_keys"):
         parts.append(describe_feature_keys(reading["feature_keys"]))

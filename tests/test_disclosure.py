@@ -247,14 +247,17 @@ def test_engines_agree_on_packed_kpath_codes() -> None:
         closed.update(p[i:j] for i in range(len(p)) for j in range(i + 1, len(p) + 1))
     codes = np.array(sorted(sum(e << (4 * (len(p) - 1 - i)) for i, e in enumerate(p)) | (len(p) << 60) for p in closed))
     codes = codes.astype(np.uint64)
-    rng.shuffle(codes)
     values = rng.integers(1, 40, size=len(codes))
     primary = rng.random(len(codes)) < 0.2
-    families = list(kpath_parents(codes, 4))
-    compiled = complementary_suppression(codes, values, primary, families, engine="compiled")
-    vectorized = complementary_suppression(codes, values, primary, families, engine="vectorized")
-    assert compiled.sum() > primary.sum()  # the rule did hide more than the floor
-    assert np.array_equal(compiled, vectorized)
+    for shuffled in (False, True):  # in code order as list_kpath_cells gives them (no copies), and not
+        if shuffled:
+            order = rng.permutation(len(codes))
+            codes, values, primary = codes[order], values[order], primary[order]
+        families = list(kpath_parents(codes, 4))
+        compiled = complementary_suppression(codes, values, primary, families, engine="compiled")
+        vectorized = complementary_suppression(codes, values, primary, families, engine="vectorized")
+        assert compiled.sum() > primary.sum()  # the rule did hide more than the floor
+        assert np.array_equal(compiled, vectorized)
 
 
 def test_an_unknown_engine_is_refused() -> None:
@@ -275,3 +278,18 @@ def test_run_search_finds_what_searchsorted_finds(keys: list[int], queries: list
     sorted_keys = np.sort(np.array(keys, dtype=np.int64))
     q = np.array(queries, dtype=np.int64)
     assert _search_runs(sorted_keys, q).tolist() == np.searchsorted(sorted_keys, q).tolist()
+
+
+def test_compiled_kpath_parents_equal_the_numpy_ones() -> None:
+    from gapfinder.disclosure import COMPILED_MIN_CELLS, _kpath_parents_compiled
+
+    rng = np.random.default_rng(3)
+    bits = 9
+    k = rng.integers(0, 7, size=COMPILED_MIN_CELLS).astype(np.uint64)
+    payload = rng.integers(0, 1 << 54, size=len(k), dtype=np.uint64) & ((np.uint64(1) << (k * np.uint64(bits))) - 1)
+    codes = (k << np.uint64(60)) | payload
+    prefix, suffix = np.empty_like(codes), np.empty_like(codes)
+    _kpath_parents_compiled(codes, bits, prefix, suffix)
+    expected = kpath_parents(codes[: COMPILED_MIN_CELLS - 1], bits)  # the numpy passes, below the threshold
+    assert np.array_equal(prefix[:-1], expected[0]) and np.array_equal(suffix[:-1], expected[1])
+    assert (prefix != 0).sum() > len(codes) // 2  # most codes have k >= 2: the comparison means something

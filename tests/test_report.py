@@ -205,3 +205,17 @@ def test_diagram_layers_cover_features_whose_ways_in_were_cut() -> None:
     ]
     layer = _layers(edges)
     assert layer["b"] >= 1 and layer["a"] >= 1 and layer["END"] > max(layer["a"], layer["b"])
+
+
+def test_run_summary_says_how_many_rows_were_left_out_and_why() -> None:
+    from gapfinder.pipeline import _reading_line
+
+    reading = {
+        "rows_read": 49_151_757,
+        "format": "parquet",
+        "label": "field",
+        "rejected": {"timestamp outside 1990-2099": 36_419_965, "missing user id": 12},
+    }
+    line = _reading_line(reading)
+    assert "rows left out: 12 missing user id, 36,419,965 timestamp outside 1990\\-2099" in line  # markdown-escaped
+    assert "left out" not in _reading_line({**reading, "rejected": {}})
