@@ -87,7 +87,7 @@ def _kpath_parents_compiled(
             continue
         payload = code & payload_mask
         top = np.uint64(k - 1) << np.uint64(60)
-        width = min((k - 1) * bits, 63)
+        width = (k - 1) * bits if (k - 1) * bits < 63 else 63
         prefix[i] = top | (payload >> np.uint64(bits))
         suffix[i] = top | (payload & ((np.uint64(1) << np.uint64(width)) - np.uint64(1)))
 
