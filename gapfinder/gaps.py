@@ -334,11 +334,15 @@ def _occurrence_frame(
     sequence: np.ndarray,
     positions: np.ndarray,
     after: np.ndarray,
+    items: np.ndarray,
 ) -> pa.Table:
-    """(candidate, path_id, step_positions, event_positions, after_position) per matched distinct path.
+    """(candidate, path_id, step_positions, event_positions, after_position, after_event) per matched
+    distinct path.
 
     Built column-wise: a step's position is kept when it is an event of the path (1..length; START
-    and END give NULL step positions and no event position)."""
+    and END give NULL step positions and no event position); ``after_event`` is the event id at
+    ``after_position`` (NULL when no event of the path follows), read here from the paths' ``items``
+    so the evidence queries need not join every pair with the paths' lists."""
     # At 10M high-entropy events there are 12M pairs: the masks are made a block of rows at a time,
     # so the temporaries are a block's, not the whole frame's (the peak of `run` fell 0.5 GB).
     k = np.array([len(c.path) for c in pool], dtype=np.int32)[which] if len(which) else np.zeros(0, np.int32)
@@ -350,12 +354,18 @@ def _occurrence_frame(
     step_missing = np.empty(int(step_offsets[-1]), dtype=np.bool_)
     event_values = np.empty(int(step_offsets[-1]), dtype=np.int32)
     event_offsets = np.zeros(len(which) + 1, dtype=np.int32)
+    after_event = np.zeros(len(which), dtype=np.int32)
+    after_missing = np.ones(len(which), dtype=np.bool_)
     steps_before = np.arange(width, dtype=np.int32)[None, :]
     filled = 0
     for lo in range(0, len(which), _FRAME_BLOCK_ROWS):
         hi = min(lo + _FRAME_BLOCK_ROWS, len(which))
         at = positions[lo:hi].astype(np.int32, copy=False)
         lengths = (starts[sequence[lo:hi] + 1] - starts[sequence[lo:hi]]).astype(np.int32)
+        next_at = after[lo:hi]
+        has_next = (next_at >= 1) & (next_at <= lengths)
+        after_missing[lo:hi] = ~has_next
+        after_event[lo:hi][has_next] = items[starts[sequence[lo:hi][has_next]] + next_at[has_next] - 1]
         steps = steps_before < k[lo:hi, None]
         in_path = at >= 1
         in_path &= at <= lengths[:, None]
@@ -376,6 +386,7 @@ def _occurrence_frame(
             "step_positions": pa.ListArray.from_arrays(pa.array(step_offsets), steps_array),
             "event_positions": pa.ListArray.from_arrays(pa.array(event_offsets), events_array),
             "after_position": pa.array(after.astype(np.int32, copy=False), mask=after <= 0),
+            "after_event": pa.array(after_event, mask=after_missing),
         }
     )
 
@@ -596,7 +607,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         which=which,
         sequence=sequence,
     )
-    frame = _occurrence_frame(pool, which, db.path_ids[sequence], db.starts, sequence, positions, after)
+    frame = _occurrence_frame(pool, which, db.path_ids[sequence], db.starts, sequence, positions, after, db.items)
     del positions, after  # 12M (candidate, path) rows at 10M high-entropy events: the frame holds them now
     totals = {
         int(r["event_id"]): (int(r["occurrences"]), int(r["errors"]))

@@ -4,7 +4,7 @@
 -- step after it, where that next step failed, and the mean failure rate (per session) of the events
 -- that came next. Sums the session groups of gap_session_groups (create_gap_session_groups.sql).
 -- Reads the registered Arrow tables gap_paths (candidate, path_id, step_positions, event_positions,
--- after_position) and event_rates (event_id, rate), gap_session_groups, full_paths.
+-- after_position, after_event) and event_rates (event_id, rate), gap_session_groups.
 -- Parameters: none.
 SELECT
     g.candidate,
@@ -28,7 +28,6 @@ SELECT
         AS next_expected_rate
 FROM gap_paths AS g
 JOIN gap_session_groups AS s ON s.path_id = g.path_id
-JOIN full_paths AS p ON p.path_id = g.path_id
-LEFT JOIN event_rates AS r ON r.event_id = p.path[g.after_position]
+LEFT JOIN event_rates AS r ON r.event_id = g.after_event
 GROUP BY g.candidate
 ORDER BY g.candidate;
