@@ -67,6 +67,20 @@ def pack_code(path: Sequence[int], bits: int) -> int:
     return code
 
 
+def unpack_code(code: int, bits: int) -> tuple[int, ...]:
+    """The event ids of a packed code (the inverse of ``pack_code``).
+
+    Examples
+    --------
+    >>> unpack_code(pack_code([0, 5, 3], 4), 4)
+    (0, 5, 3)
+    """
+    code = int(code)
+    k = code >> 60
+    mask = (1 << bits) - 1
+    return tuple((code >> (bits * (k - 1 - j))) & mask for j in range(k))
+
+
 def _index_runs(length: int, k: int, max_gap: int) -> Iterator[tuple[int, ...]]:
     """Index tuples of k positions in a path of ``length`` with at most ``max_gap`` skipped between."""
     if k == 1:
@@ -140,7 +154,6 @@ class FieldItems:
 
     k: np.ndarray
     code: np.ndarray
-    path_column: Any  # pyarrow ListArray of event ids, read row by row with path()
     occurrences: np.ndarray
     sessions: np.ndarray
     users: np.ndarray
@@ -152,8 +165,9 @@ class FieldItems:
     pattern_gap: int | None = None
 
     def path(self, row: int) -> tuple[int, ...]:
-        """Event ids of one k-path row (converted on demand: there may be millions of rows)."""
-        return tuple(self.path_column[row].as_py())
+        """Event ids of one k-path row, decoded from its packed code (there may be millions of rows:
+        no list column is held for them)."""
+        return unpack_code(int(self.code[row]), self.bits)
 
 
 def load_test_paths(ws: Workspace) -> TestPaths:
@@ -176,14 +190,14 @@ def load_field_items(ws: Workspace) -> FieldItems:
     con = ws.con
     bits = id_bits(len(feature_names(con)))
     table = fetch_arrow(con, "list_kpath_items")
-    k = table.column("k").to_numpy().astype(np.int64)
+    code = table.column("code").to_numpy().astype(np.uint64, copy=False)
+    k = (code >> np.uint64(60)).astype(np.int64)
     items = FieldItems(
         k=k,
-        code=table.column("code").to_numpy().astype(np.uint64),
-        path_column=table.column("path").combine_chunks(),
-        occurrences=table.column("occurrences").to_numpy().astype(np.int64),
-        sessions=table.column("sessions").to_numpy().astype(np.int64),
-        users=table.column("users").to_numpy().astype(np.int64),
+        code=code,
+        occurrences=table.column("occurrences").to_numpy().astype(np.int64, copy=False),
+        sessions=table.column("sessions").to_numpy().astype(np.int64, copy=False),
+        users=table.column("users").to_numpy().astype(np.int64, copy=False),
         bits=bits,
         max_k=int(k.max()) if len(k) else 2,
     )

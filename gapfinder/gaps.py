@@ -37,7 +37,7 @@ from gapfinder.coverage import (
     occurs_in,
 )
 from gapfinder.errors import ConfigError
-from gapfinder.gap_evidence import gap_evidence
+from gapfinder.gap_evidence import MASK_BITS, gap_evidence
 from gapfinder.matching import containing_sequences
 from gapfinder.occurrences import first_occurrences
 from gapfinder.paths import feature_names, hidden_full_path_ids
@@ -326,6 +326,44 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
 _FRAME_BLOCK_ROWS = 1 << 20  # (candidate, path) pairs masked at a time in _occurrence_frame
 
 
+def _evidence_in_blocks(
+    con: Any, db: Any, pool: list[_Candidate], rates: pa.Table, *, midpoint: Any, include_automated: bool
+) -> tuple[dict[int, dict[str, Any]], list[dict[str, Any]], np.ndarray, np.ndarray]:
+    """gap_evidence for the pool, MASK_BITS candidates at a time, with the (candidate, distinct path)
+    pairs of every candidate (for session_sets).
+
+    A candidate's evidence depends on no other candidate, and gap_evidence counts users MASK_BITS
+    candidates at a time anyway, so blocks of that size give the very same numbers; only a block's
+    occurrence positions and frame are held at once (at 50M high-entropy events the pool matches
+    about 60M pairs: the frame alone took 2.6 GB)."""
+    assert db.path_ids is not None
+    evidence: dict[int, dict[str, Any]] = {}
+    segment_rows: list[dict[str, Any]] = []
+    all_which: list[np.ndarray] = []
+    all_sequence: list[np.ndarray] = []
+    for lo in range(0, len(pool), MASK_BITS):
+        block = pool[lo : lo + MASK_BITS]
+        paths, gaps, framed = [c.path for c in block], [c.gap for c in block], [c.framed for c in block]
+        which, sequence = containing_sequences(db, paths, max_gaps=gaps, framed=framed)
+        positions, after = first_occurrences(db, paths, max_gaps=gaps, framed=framed, which=which, sequence=sequence)
+        frame = _occurrence_frame(block, which, db.path_ids[sequence], db.starts, sequence, positions, after, db.items)
+        del positions, after
+        found, segments = gap_evidence(
+            con, frame, rates, candidates=len(block), midpoint=midpoint, include_automated=include_automated
+        )
+        del frame
+        evidence.update({c + lo: {**ev, "candidate": c + lo} for c, ev in found.items()})
+        segment_rows.extend({**r, "candidate": int(r["candidate"]) + lo} for r in segments)
+        all_which.append((which + lo).astype(np.int32))
+        all_sequence.append(sequence.astype(np.int32))
+    return (
+        evidence,
+        segment_rows,
+        np.concatenate(all_which) if all_which else np.zeros(0, np.int32),
+        np.concatenate(all_sequence) if all_sequence else np.zeros(0, np.int32),
+    )
+
+
 def _occurrence_frame(
     pool: list[_Candidate],
     which: np.ndarray,
@@ -595,20 +633,6 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         return result
 
     db = load_sequences(con, with_users=False)
-    which, sequence = containing_sequences(
-        db, [c.path for c in pool], max_gaps=[c.gap for c in pool], framed=[c.framed for c in pool]
-    )
-    assert db.path_ids is not None
-    positions, after = first_occurrences(
-        db,
-        [c.path for c in pool],
-        max_gaps=[c.gap for c in pool],
-        framed=[c.framed for c in pool],
-        which=which,
-        sequence=sequence,
-    )
-    frame = _occurrence_frame(pool, which, db.path_ids[sequence], db.starts, sequence, positions, after, db.items)
-    del positions, after  # 12M (candidate, path) rows at 10M high-entropy events: the frame holds them now
     totals = {
         int(r["event_id"]): (int(r["occurrences"]), int(r["errors"]))
         for r in fetch_dicts(con, "list_event_error_totals", include_automated=include_automated)
@@ -621,8 +645,8 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             "rate": pa.array([e / o if o else 0.0 for o, e in totals.values()], pa.float64()),
         }
     )
-    evidence, segment_rows = gap_evidence(
-        con, frame, rates, candidates=len(pool), midpoint=recent_half.start, include_automated=include_automated
+    evidence, segment_rows, which, sequence = _evidence_in_blocks(
+        con, db, pool, rates, midpoint=recent_half.start, include_automated=include_automated
     )
     # A segment value is named only when the gap's sessions in it and the value itself each have
     # at least min_users distinct users (an app version one person used must not be shown).

@@ -38,10 +38,9 @@ def redundant_tests(tests: TestPaths, items: FieldItems, *, max_loss: float = 0.
     """The tests reverse greedy takes out while each loses at most ``max_loss`` of the objective.
 
     >>> from gapfinder.coverage import FieldItems, TestPaths, pack_code
-    >>> import pyarrow as pa
     >>> codes = [pack_code(p, 4) for p in ([0, 2], [2, 1], [2, 3], [3, 1])]
     >>> items = FieldItems(k=np.array([2, 2, 2, 2]), code=np.array(codes, dtype=np.uint64),
-    ...     path_column=pa.array([[0, 2], [2, 1], [2, 3], [3, 1]]), occurrences=np.array([10, 6, 4, 4]),
+    ...     occurrences=np.array([10, 6, 4, 4]),
     ...     sessions=np.array([10, 6, 4, 4]), users=np.array([9, 5, 4, 4]), bits=4, max_k=2)
     >>> tests = TestPaths(["short", "long", "again"], [[0, 2, 1], [0, 2, 3, 1], [0, 2, 1]])
     >>> [(r["test_id"], r["loss"]) for r in redundant_tests(tests, items)]

@@ -23,8 +23,9 @@ SELECT
     coalesce(sum(s.n) FILTER (WHERE g.after_position IS NOT NULL), 0)::BIGINT AS next_sessions,
     coalesce(sum(s.n) FILTER (WHERE list_contains(s.error_positions, g.after_position)), 0)::BIGINT
         AS next_error_sessions,
-    sum(s.n * r.rate) FILTER (WHERE g.after_position IS NOT NULL AND r.rate IS NOT NULL)
-        / nullif(sum(s.n) FILTER (WHERE g.after_position IS NOT NULL AND r.rate IS NOT NULL), 0)
+    -- summed as DECIMAL: exact, so the mean does not move with the order rows reach the sum
+    (sum(s.n * r.rate::DECIMAL(18, 15)) FILTER (WHERE g.after_position IS NOT NULL AND r.rate IS NOT NULL)
+        / nullif(sum(s.n) FILTER (WHERE g.after_position IS NOT NULL AND r.rate IS NOT NULL), 0))::DOUBLE
         AS next_expected_rate
 FROM gap_paths AS g
 JOIN gap_session_groups AS s ON s.path_id = g.path_id

@@ -1,6 +1,6 @@
 -- Returns every contiguous path of the usage profile (k = 1 features, k = 2 transitions, k >= 3
--- k-paths) with its packed code, event ids, occurrences, sessions and distinct users, in code order.
--- Reads kpaths. Parameters: none.
-SELECT k, code, path, occurrences, sessions, users
+-- k-paths) with its packed code (k and the event ids are decoded from it: coverage.unpack_code),
+-- occurrences, sessions and distinct users, in code order. Reads kpaths. Parameters: none.
+SELECT code, occurrences, sessions, users
 FROM kpaths
 ORDER BY code;

@@ -205,7 +205,21 @@ def test_pattern_hits_equal_the_plain_subsequence_check(
 
     framed = [[0, *t, 1] for t in tests]
     empty = np.zeros(0, np.int64)
-    items = FieldItems(empty, empty, None, empty, empty, empty, 8, 2, patterns=[tuple(p) for p in patterns])
+    items = FieldItems(empty, empty, empty, empty, empty, 8, 2, patterns=[tuple(p) for p in patterns])
     hits = _pattern_hits(TestPaths([f"t{i}" for i in range(len(framed))], framed), items, gap)
     expected = [[occurs_in(p, f, gap) for p in patterns] for f in framed]
     assert hits.tolist() == expected
+
+
+def test_field_item_paths_decoded_from_codes_equal_the_stored_paths(tmp_path: Path) -> None:
+    """FieldItems holds no list column: each row's path is decoded from its packed code, and must be
+    the event ids kpaths stores for it (k = 1 .. max_k, START and END included)."""
+    sessions = [("u1", list("abcab")), ("u2", list("abd")), ("u3", list("cab")), ("u1", list("dcba"))]
+    ws = build_workspace(tmp_path, sessions, [["a"]])
+    with Workspace(ws, read_only=True) as workspace:
+        items = load_field_items(workspace)
+        stored = dict(workspace.con.execute("SELECT code, path FROM kpaths").fetchall())
+    assert len(items.code) == len(stored) and items.max_k >= 3
+    for row, code in enumerate(items.code.tolist()):
+        assert list(items.path(row)) == list(stored[code])
+        assert items.k[row] == len(stored[code])

@@ -280,3 +280,17 @@ def test_first_event_ranges_cover_every_event_once() -> None:
     ranges = _first_event_ranges(db, 4)
     assert ranges[0][0] == 0 and ranges[-1][1] == db.item_count
     assert all(a < b for a, b in ranges) and all(ranges[i][1] == ranges[i + 1][0] for i in range(len(ranges) - 1))
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.lists(st.integers(2, 9), max_size=8), min_size=1, max_size=12))
+def test_event_index_lists_each_events_sequences_once_in_order(db: list[list[int]]) -> None:
+    """Both engines of the inverted index list, per event, exactly the sequences holding it, ascending."""
+    from gapfinder.matching import _event_index, _event_index_python
+
+    data = SequenceDatabase.from_sequences(db)
+    top = int(data.items.max()) + 1 if len(data.items) else 0
+    for index in (_event_index, _event_index_python):
+        bounds, sequences = index(data.items.astype(np.int32), data.starts.astype(np.int64), top)
+        for e in range(top):
+            assert sequences[bounds[e] : bounds[e + 1]].tolist() == [s for s, seq in enumerate(db) if e in seq]
