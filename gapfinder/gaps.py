@@ -36,6 +36,7 @@ from gapfinder.coverage import (
     load_test_paths,
     occurs_in,
 )
+from gapfinder.disclosure import kpath_parents
 from gapfinder.errors import ConfigError
 from gapfinder.gap_evidence import MASK_BITS, gap_evidence
 from gapfinder.matching import containing_sequences
@@ -114,16 +115,21 @@ class _Candidate:
 
 
 def _frontier(items: FieldItems, exercised: np.ndarray) -> np.ndarray:
-    """Rows of unexercised k-paths (k >= 3) whose prefix and suffix one step shorter are exercised."""
-    bits = np.uint64(items.bits)
-    k = items.k.astype(np.uint64)
-    ids = items.code & np.uint64((1 << 60) - 1)
-    shorter = (k - np.uint64(1)) << np.uint64(60)
-    prefix = shorter | (ids >> bits)
-    suffix_mask = (np.uint64(1) << (bits * (k - np.uint64(1)))) - np.uint64(1)
-    suffix = shorter | (ids & suffix_mask)
-    exercised_codes = items.code[exercised]
-    return (items.k >= 3) & ~exercised & np.isin(prefix, exercised_codes) & np.isin(suffix, exercised_codes)
+    """Rows of unexercised k-paths (k >= 3) whose prefix and suffix one step shorter are exercised.
+
+    The parents come from ``disclosure.kpath_parents`` (one compiled pass for large inputs) and are
+    looked up in the few exercised codes by binary search (np.isin sorted all 18.4M codes of 50M
+    high-entropy events together with them: 5.7 s)."""
+    unexercised = (items.k >= 3) & ~exercised
+    known = np.sort(items.code[exercised])
+    if len(known) == 0 or not unexercised.any():
+        return unexercised & False
+    prefix, suffix = kpath_parents(items.code, items.bits)
+
+    def is_known(codes: np.ndarray) -> np.ndarray:
+        return known[np.minimum(np.searchsorted(known, codes), len(known) - 1)] == codes
+
+    return unexercised & is_known(prefix) & is_known(suffix)
 
 
 def _candidates(

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
@@ -222,3 +223,24 @@ def test_evidence_in_blocks_of_any_size_equals_one_block(
         blocked = find_gaps(ws, GapOptions(top=10))
     assert blocked["candidates"] > 7 * 2 and len(blocked["gaps"]) == 10
     assert json.dumps(blocked, sort_keys=True, default=str) == json.dumps(whole, sort_keys=True, default=str)
+
+
+def test_frontier_equals_a_check_by_sets(suite_workspace: Path) -> None:
+    """The k-path frontier (unexercised k >= 3 runs whose one-shorter prefix and suffix are both
+    exercised) equals the definition applied to event-id tuples, for several exercised sets."""
+    from gapfinder.coverage import load_field_items
+    from gapfinder.gaps import _frontier
+
+    with Workspace(suite_workspace, read_only=True) as ws:
+        items = load_field_items(ws)
+    rng = np.random.default_rng(5)
+    paths = [items.path(r) for r in range(len(items.code))]
+    for share in (0.0, 0.3, 0.7, 1.0):
+        exercised = rng.random(len(paths)) < share
+        done = {p for p, e in zip(paths, exercised, strict=True) if e}
+        expected = [
+            len(p) >= 3 and not e and p[:-1] in done and p[1:] in done for p, e in zip(paths, exercised, strict=True)
+        ]
+        assert _frontier(items, exercised).tolist() == expected
+        if 0 < share < 1:
+            assert any(expected)
