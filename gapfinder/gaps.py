@@ -329,14 +329,34 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
     return shown
 
 
+PAIRS_PER_BLOCK = 8_000_000  # (candidate, path) pairs a block of gap evidence aims at (~0.5 GB)
 _FRAME_BLOCK_ROWS = 1 << 20  # (candidate, path) pairs masked at a time in _occurrence_frame
+
+
+def _blocks(pool: list[_Candidate], distinct_paths: int, sessions: int) -> list[tuple[int, int]]:
+    """(start, end) of consecutive blocks of the pool: at most MASK_BITS candidates, and about
+    PAIRS_PER_BLOCK (candidate, distinct path) pairs, a candidate being expected on its share of
+    the sessions times the distinct paths (so the most common candidates, first in the pool, come
+    in smaller blocks); a candidate alone may exceed it."""
+    per_session = distinct_paths / sessions if sessions else 0.0
+    out: list[tuple[int, int]] = []
+    lo, pairs = 0, 0.0
+    for i, cand in enumerate(pool):
+        expected = cand.sessions * per_session
+        if i > lo and (i - lo == MASK_BITS or pairs + expected > PAIRS_PER_BLOCK):
+            out.append((lo, i))
+            lo, pairs = i, 0.0
+        pairs += expected
+    if lo < len(pool):
+        out.append((lo, len(pool)))
+    return out
 
 
 def _evidence_in_blocks(
     con: Any, db: Any, pool: list[_Candidate], rates: pa.Table, *, midpoint: Any, include_automated: bool
 ) -> tuple[dict[int, dict[str, Any]], list[dict[str, Any]], np.ndarray, np.ndarray]:
-    """gap_evidence for the pool, MASK_BITS candidates at a time, with the (candidate, distinct path)
-    pairs of every candidate (for session_sets).
+    """gap_evidence for the pool in blocks (``_blocks``), with the (candidate, distinct path) pairs of
+    every candidate (for session_sets).
 
     A candidate's evidence depends on no other candidate, and gap_evidence counts users MASK_BITS
     candidates at a time anyway, so blocks of that size give the very same numbers; only a block's
@@ -347,8 +367,8 @@ def _evidence_in_blocks(
     segment_rows: list[dict[str, Any]] = []
     all_which: list[np.ndarray] = []
     all_sequence: list[np.ndarray] = []
-    for lo in range(0, len(pool), MASK_BITS):
-        block = pool[lo : lo + MASK_BITS]
+    for lo, hi in _blocks(pool, db.sequence_count, int(db.weights.sum())):
+        block = pool[lo:hi]
         paths, gaps, framed = [c.path for c in block], [c.gap for c in block], [c.framed for c in block]
         which, sequence = containing_sequences(db, paths, max_gaps=gaps, framed=framed)
         positions, after = first_occurrences(db, paths, max_gaps=gaps, framed=framed, which=which, sequence=sequence)

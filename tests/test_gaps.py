@@ -221,8 +221,21 @@ def test_evidence_in_blocks_of_any_size_equals_one_block(
         whole = find_gaps(ws, GapOptions(top=10))
         monkeypatch.setattr(gaps_module, "MASK_BITS", 7)
         blocked = find_gaps(ws, GapOptions(top=10))
+        monkeypatch.setattr(gaps_module, "PAIRS_PER_BLOCK", 50)  # blocks by expected pairs: often one candidate
+        by_pairs = find_gaps(ws, GapOptions(top=10))
     assert blocked["candidates"] > 7 * 2 and len(blocked["gaps"]) == 10
     assert json.dumps(blocked, sort_keys=True, default=str) == json.dumps(whole, sort_keys=True, default=str)
+    assert json.dumps(by_pairs, sort_keys=True, default=str) == json.dumps(whole, sort_keys=True, default=str)
+
+
+def test_blocks_cover_the_pool_in_order_within_both_bounds() -> None:
+    from gapfinder.gaps import MASK_BITS, PAIRS_PER_BLOCK, _blocks, _Candidate
+
+    pool = [_Candidate("kpath", (2, 3), sessions, sessions, True, 0) for sessions in [900, 500, 40, 40, 3, *[1] * 300]]
+    blocks = _blocks(pool, distinct_paths=PAIRS_PER_BLOCK * 10, sessions=1000)  # a session: 1 % of the budget
+    assert blocks[:3] == [(0, 1), (1, 2), (2, 22)]  # 9x and 5x the budget alone; then 40 + 40 + 3 + 17 x 1
+    assert [lo for lo, _ in blocks[1:]] == [hi for _, hi in blocks[:-1]] and blocks[-1][1] == len(pool)
+    assert all(0 < hi - lo <= MASK_BITS for lo, hi in blocks)
 
 
 def test_frontier_equals_a_check_by_sets(suite_workspace: Path) -> None:
