@@ -613,6 +613,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
             f"workspace {ws.path} was profiled by an earlier gapfinder that did not keep where errors happen; "
             "run `gapfinder profile` again"
         )
+    ws.release_cached_memory()  # the k-path items and the (candidate, path) pairs are held in arrays
     tests = load_test_paths(ws)
     items = load_field_items(ws)
     exercised, pattern_exercised = exercised_masks(tests, items, max_gap=options.max_gap)

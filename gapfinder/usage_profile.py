@@ -210,10 +210,12 @@ def _profile_source(
                 pseudonymize_key=options.pseudonymize_key,
             )
         say("counting paths")
+        ws.release_cached_memory()  # the k-path counter holds arrays of every k-path it finds
         build_paths(con, max_k=options.max_k, include_automated=options.include_automated)
         say("fitting the usage model")
         _fit_model(con)
         run(con, "upsert_meta", key="profile_reading", value=json.dumps(reading, sort_keys=True))
+        ws.release_cached_memory()  # the summary's suppression holds arrays of every k-path
         summary = summarize_profile(ws, top=top, min_users=min_users)
         summary["cleared"] = cleared
         record.row_counts = {

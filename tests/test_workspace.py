@@ -131,3 +131,14 @@ def test_a_share_of_the_memory_limit_follows_the_limit_connections_get() -> None
         assert memory_limit_share(0.1) == "64MiB"  # never under DuckDB's useful minimum
     finally:
         use_engine(memory_limit=None)
+
+
+def test_releasing_cached_memory_keeps_the_limit_and_the_data(tmp_path: Path) -> None:
+    from gapfinder.workspace import Workspace
+
+    with Workspace(tmp_path / "ws.duckdb", memory_limit="300MB") as ws:
+        before = ws.con.execute("SELECT current_setting('memory_limit')").fetchall()
+        ws.con.execute("CREATE TABLE t AS SELECT range AS x FROM range(2000000)")
+        ws.release_cached_memory()
+        assert ws.con.execute("SELECT current_setting('memory_limit')").fetchall() == before
+        assert ws.con.execute("SELECT sum(x) FROM t").fetchall() == [(1999999 * 2000000 // 2,)]
