@@ -39,7 +39,8 @@ from gapfinder.coverage import (
 from gapfinder.disclosure import kpath_parents
 from gapfinder.errors import ConfigError
 from gapfinder.gap_evidence import MASK_BITS, gap_evidence
-from gapfinder.matching import containing_sequences
+from gapfinder.matching import containing_sequences, event_index
+from gapfinder.mining import use_python
 from gapfinder.occurrences import first_occurrences
 from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated
@@ -367,10 +368,11 @@ def _evidence_in_blocks(
     segment_rows: list[dict[str, Any]] = []
     all_which: list[np.ndarray] = []
     all_sequence: list[np.ndarray] = []
+    index = event_index(db, plain=use_python("auto", len(db.items)))  # once for every block
     for lo, hi in _blocks(pool, db.sequence_count, int(db.weights.sum())):
         block = pool[lo:hi]
         paths, gaps, framed = [c.path for c in block], [c.gap for c in block], [c.framed for c in block]
-        which, sequence = containing_sequences(db, paths, max_gaps=gaps, framed=framed)
+        which, sequence = containing_sequences(db, paths, max_gaps=gaps, framed=framed, index=index)
         positions, after = first_occurrences(db, paths, max_gaps=gaps, framed=framed, which=which, sequence=sequence)
         frame = _occurrence_frame(block, which, db.path_ids[sequence], db.starts, sequence, positions, after, db.items)
         del positions, after

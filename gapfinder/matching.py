@@ -19,7 +19,7 @@ from numba import njit
 from gapfinder.compiled import grow, python_twin
 from gapfinder.mining import SequenceDatabase, use_python
 
-__all__ = ["containing_sequences", "state_at"]
+__all__ = ["EventIndex", "containing_sequences", "event_index", "state_at"]
 
 _I32 = np.int32
 _I64 = np.int64
@@ -147,8 +147,12 @@ def containing_sequences(
     max_gaps: list[int | None],
     framed: list[bool],
     engine: str = "auto",
+    index: EventIndex | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Which sequences contain which pattern: arrays (pattern index, sequence index).
+
+    ``index``: ``event_index(db)`` when the caller matches several batches of patterns against the
+    same ``db`` (made here otherwise).
 
     ``max_gaps[i]`` bounds the events between consecutive steps of pattern i (0: contiguous, None:
     any); with ``framed[i]`` each sequence is read as START (0) → events → END (1), so that
@@ -170,7 +174,7 @@ def containing_sequences(
     if (lengths == 0).any():
         raise ValueError("patterns must have at least one event")
     plain_index = use_python(engine, len(db.items))
-    candidate_ptr, candidates = _candidate_sequences(db, patterns, plain=plain_index)
+    candidate_ptr, candidates = _candidate_sequences(db, patterns, index or event_index(db, plain=plain_index))
     work = len(candidates) * max(1, len(db.items) // max(db.sequence_count, 1))
     small = plain_index and (engine == "python" or work <= 500_000)
     matcher = _match_python if small else _match_kernel
@@ -188,21 +192,31 @@ def containing_sequences(
     return result
 
 
-def _candidate_sequences(
-    db: SequenceDatabase, patterns: list[tuple[int, ...]], *, plain: bool = False
-) -> tuple[np.ndarray, np.ndarray]:
-    """Per pattern, the sequences that contain its rarest event (an inverted index): only those can
-    contain the pattern. Patterns made only of START/END (ids 0 and 1, never stored in sequences)
-    are tried on every sequence. ``plain``: build the index with the kernel's plain-Python twin."""
-    n_seq = db.sequence_count
+EventIndex = tuple[np.ndarray, np.ndarray]  # (bounds, sequences): see event_index
+
+
+def event_index(db: SequenceDatabase, *, plain: bool = False) -> EventIndex:
+    """The inverted index of ``db``: the distinct sequences holding event e, ascending, are
+    ``sequences[bounds[e]:bounds[e + 1]]``. Two passes of a kernel count, then list, them: no sort of
+    every position (at 50M high-entropy events the sort and its int64 copies took 11.7 s and 1.6 GB).
+    ``plain``: the kernel's plain-Python twin (small inputs)."""
     top_event = int(db.items.max()) + 1 if len(db.items) else 0
-    # Two passes of a kernel count, then list, each event's distinct sequences in ascending order:
-    # no sort of every position (at 50M high-entropy events the sort and its int64 copies took
-    # 11.7 s and 1.6 GB).
     indexer = _event_index_python if plain else _event_index
-    bounds, sequence_of_key = indexer(
+    result: EventIndex = indexer(
         np.ascontiguousarray(db.items, dtype=_I32), np.ascontiguousarray(db.starts, dtype=_I64), top_event
     )
+    return result
+
+
+def _candidate_sequences(
+    db: SequenceDatabase, patterns: list[tuple[int, ...]], index: EventIndex
+) -> tuple[np.ndarray, np.ndarray]:
+    """Per pattern, the sequences that contain its rarest event (from ``index``): only those can
+    contain the pattern. Patterns made only of START/END (ids 0 and 1, never stored in sequences)
+    are tried on every sequence."""
+    n_seq = db.sequence_count
+    bounds, sequence_of_key = index
+    top_event = len(bounds) - 1
     everything = np.arange(n_seq, dtype=np.int64)
     lists = []
     for pattern in patterns:

@@ -22,7 +22,7 @@ from gapfinder.gaps import GapOptions, find_gaps, unused_tests
 from gapfinder.patterns import MiningOptions, mine_workspace
 from gapfinder.plan import PlanOptions, make_plan, plan_gap_options
 from gapfinder.quoting import markdown_code, markdown_text
-from gapfinder.report.markdown import decision_of, privacy_note
+from gapfinder.report.markdown import decision_of, privacy_note, rejected_rows_text
 from gapfinder.report.markdown import markdown_path as _path
 from gapfinder.report.markdown import percent as _pct
 from gapfinder.safe_io import check_target, write_files
@@ -194,10 +194,8 @@ def _reading_line(reading: dict[str, Any]) -> str:
     parts = [
         f"Telemetry: {reading.get('rows_read', 0):,} rows of {reading.get('format', '')} ({reading.get('label', '')})"
     ]
-    rejected = reading.get("rejected") or {}
-    if rejected:
-        counted = ", ".join(f"{n:,} {reason}" for reason, n in sorted(rejected.items()))
-        parts.append(f"rows left out: {counted}")
+    if reading.get("rejected"):
+        parts.append(f"rows left out: {rejected_rows_text(reading['rejected'])}")
     parts += list(reading.get("notes") or [])
     if reading.get("feature_keys"):
         parts.append(describe_feature_keys(reading["feature_keys"]))

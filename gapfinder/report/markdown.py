@@ -215,3 +215,8 @@ def render_markdown(data: dict[str, Any]) -> str:
         )
     lines += ["", privacy_note(gaps["min_users"], bool(reading.get("pseudonymized"))), ""]
     return "\n".join(lines)
+
+
+def rejected_rows_text(rejected: dict[str, int]) -> str:
+    """Rows left out of the input, per reason: "12 missing user id, 3 timestamp outside 1990-2099"."""
+    return ", ".join(f"{n:,} {reason}" for reason, n in sorted(rejected.items()))

@@ -14,7 +14,7 @@ from rich.console import Console
 from rich.table import Table
 
 from gapfinder.quoting import terminal_text
-from gapfinder.report.markdown import p_value_text
+from gapfinder.report.markdown import p_value_text, rejected_rows_text
 from gapfinder.sources.feature_keys import describe_feature_keys
 
 __all__ = ["format_path", "render_audit", "render_paths", "render_plan", "render_profile", "summary_rows"]
@@ -57,8 +57,7 @@ def render_profile(summary: dict[str, Any], console: Console) -> None:
     if reading.get("naive_timestamps"):
         console.print(f"  {reading['naive_timestamps']:,} timestamps had no time zone and were taken as UTC")
     if rejected:
-        parts = ", ".join(f"{n:,} {reason}" for reason, n in sorted(rejected.items()))
-        console.print(f"[yellow]rejected rows[/]: {parts}")
+        console.print(f"[yellow]rejected rows[/]: {rejected_rows_text(rejected)}")
     else:
         console.print("rejected rows: none")
     if reading.get("noise_dropped"):
