@@ -1,105 +1,397 @@
-"""The evidence behind each candidate gap, from per-path aggregates instead of a join of every session.
+"""The evidence behind each candidate gap, in one compiled pass over the distinct paths.
 
-For the candidates of ``gaps.find_gaps`` (each matched to the distinct paths that contain it, with
-the positions of its steps there), the sessions on those paths are grouped once by path, error
-positions, any error and half of the period; every session count of a candidate is then a sum over a
-few groups. Distinct users, which cannot be summed, come from one pass over the sessions per 128
-candidates: each path carries a bit mask of the candidates it holds, each user the OR of the masks
-of their sessions, and the users per candidate are the bit counts over the distinct masks, weighted
-by how many users share each (the same idea as the user signatures of ``create_kpaths.sql``).
-Results equal those of joining every session to every candidate (tests/test_gap_evidence.py).
+For the candidates of ``gaps.find_gaps``, the sessions are read once, grouped per distinct path
+(``load_path_sessions``): by error positions, any error and half of the period (session counts);
+by user, with whether the user had a session there in the earlier half (distinct users); by segment
+value and user (segment sessions and users). ``gap_evidence`` then tries each candidate on the
+distinct paths that hold its rarest event (``matching``), finds the occurrence that starts leftmost
+(``occurrences.first_occurrence``) and adds that path's groups to the candidate's sums: sessions,
+sessions with an error, in the recent half, with a failure on the occurrence, on each of its first
+seven steps and on the step right after it, the failure rate expected of the events that came
+next, and per segment value. Distinct users are counted with one marker per user (and per user and
+segment value) stamped with the candidate, so a user on several paths of a candidate counts once.
+
+Threads take candidates interleaved (the pool comes most common first) and each candidate's sums
+are added by one thread in path order, so results do not depend on the thread count. Results equal
+those of joining every session to every candidate (tests/test_gap_evidence.py).
 """
 
 from __future__ import annotations
 
-import itertools
-from collections import defaultdict
+from dataclasses import dataclass
 from typing import Any
 
 import duckdb
+import numba
 import numpy as np
-import pyarrow as pa
+from numba import njit
 
-from gapfinder.sql import fetch_arrow, fetch_dicts, registered, run
+from gapfinder.matching import EventIndex, candidate_sequences
+from gapfinder.mining import SequenceDatabase
+from gapfinder.occurrences import first_occurrence
+from gapfinder.sql import fetch_arrow, fetch_dicts, list_arrays
 
-__all__ = ["MASK_BITS", "gap_evidence"]
+__all__ = ["STEP_COLUMNS", "PathSessions", "gap_evidence", "load_path_sessions"]
 
-MASK_BITS = 128
-_CHUNK_ROWS = 200_000  # distinct masks unpacked at a time (128 bytes each)
-
-
-def _bit_counts(low: np.ndarray, high: np.ndarray, weights: np.ndarray) -> np.ndarray:
-    """Σ weights over the rows whose mask has bit b set, for b = 0..127 (low word first)."""
-    out = np.zeros(128, dtype=np.int64)  # two 64-bit words, whatever width the masks use
-    for start in range(0, len(low), _CHUNK_ROWS):
-        words = np.stack([low[start : start + _CHUNK_ROWS], high[start : start + _CHUNK_ROWS]], axis=1)
-        words = np.ascontiguousarray(words.astype("<u8"))
-        bits = np.unpackbits(words.view(np.uint8).reshape(len(words), 16), axis=1, bitorder="little")
-        out += weights[start : start + _CHUNK_ROWS].astype(np.int64) @ bits.astype(np.int64)
-    return out
+STEP_COLUMNS = 7  # steps of a gap whose failures are counted one by one
+# Columns of the per-candidate counts the kernel adds up.
+_SESSIONS, _ERRORS, _RECENT, _OWN, _NEXT, _NEXT_ERRORS, _USERS, _EARLIER, _STEP = range(9)
+_COUNT_COLUMNS = _STEP + STEP_COLUMNS
+CHUNKS_PER_THREAD = 2  # candidate chunks per thread (interleaved), to even out uneven candidates
+TILE_ITEMS = 1 << 17  # items of the sequences every pattern of a chunk reads before the next ones
 
 
-def _column(table: pa.Table, name: str) -> np.ndarray:
-    return table.column(name).to_numpy(zero_copy_only=False)
+@dataclass(frozen=True)
+class PathSessions:
+    """The sessions that count for the profile, grouped per distinct path of a SequenceDatabase
+    (sequence s's rows of each grouping are ``[ptr[s], ptr[s + 1])``)."""
+
+    group_ptr: np.ndarray  # by error positions, any error, recent half
+    group_n: np.ndarray
+    group_error: np.ndarray
+    group_recent: np.ndarray
+    error_ptr: np.ndarray  # error positions of group g: error_positions[error_ptr[g]:error_ptr[g + 1]]
+    error_positions: np.ndarray
+    user_ptr: np.ndarray  # by user
+    user_no: np.ndarray
+    user_earlier: np.ndarray
+    user_count: int
+    value_ptr: np.ndarray  # by segment value and user
+    value_no: np.ndarray
+    value_user_no: np.ndarray  # the (user, value) pair, numbered densely
+    value_n: np.ndarray
+    value_user_count: int
+    values: list[tuple[str, str]]  # (segment, value) by value_no
+
+
+def _pointers(path_ids: np.ndarray, row_paths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(ptr over the sequences of ``path_ids``, rows kept): rows come ordered by path id; a row of a
+    path the database does not hold (none should) is left out."""
+    at = np.searchsorted(path_ids, row_paths)
+    kept = at < len(path_ids)
+    kept[kept] = path_ids[at[kept]] == row_paths[kept]
+    ptr = np.zeros(len(path_ids) + 1, dtype=np.int64)
+    np.cumsum(np.bincount(at[kept], minlength=len(path_ids)), out=ptr[1:])
+    return ptr, kept
+
+
+def _numpy(table: Any, name: str, dtype: Any) -> np.ndarray:
+    return np.ascontiguousarray(table.column(name).to_numpy(zero_copy_only=False), dtype=dtype)
+
+
+def load_path_sessions(
+    con: duckdb.DuckDBPyConnection, db: SequenceDatabase, *, midpoint: Any, include_automated: bool
+) -> PathSessions:
+    """The groupings gap_evidence adds up, read once per ``find_gaps``."""
+    assert db.path_ids is not None
+    path_ids = np.asarray(db.path_ids, dtype=np.int64)
+    groups = fetch_arrow(con, "list_gap_session_groups", midpoint=midpoint, include_automated=include_automated)
+    group_ptr, kept = _pointers(path_ids, _numpy(groups, "path_id", np.int64))
+    error_ptr, error_positions = list_arrays(groups.column("error_positions"))
+    if not kept.all():  # keep the error lists of the kept groups only
+        lengths = np.diff(error_ptr)[kept]
+        error_positions = error_positions[np.repeat(kept, np.diff(error_ptr))]
+        error_ptr = np.zeros(len(lengths) + 1, dtype=np.int64)
+        np.cumsum(lengths, out=error_ptr[1:])
+    users = fetch_arrow(con, "list_gap_path_users", midpoint=midpoint, include_automated=include_automated)
+    user_ptr, user_kept = _pointers(path_ids, _numpy(users, "path_id", np.int64))
+    user_no = _numpy(users, "user_no", np.int32)
+    valued = fetch_arrow(con, "list_gap_path_segment_users", include_automated=include_automated)
+    value_ptr, value_kept = _pointers(path_ids, _numpy(valued, "path_id", np.int64))
+    value_user_no = _numpy(valued, "value_user_no", np.int32)
+    values = [
+        (str(r["segment"]), str(r["value"]))
+        for r in fetch_dicts(con, "list_gap_segment_values", include_automated=include_automated)
+    ]
+    return PathSessions(
+        group_ptr=group_ptr,
+        group_n=_numpy(groups, "n", np.int64)[kept],
+        group_error=_numpy(groups, "has_error", np.bool_)[kept],
+        group_recent=_numpy(groups, "is_recent", np.bool_)[kept],
+        error_ptr=np.ascontiguousarray(error_ptr, dtype=np.int64),
+        error_positions=np.ascontiguousarray(error_positions, dtype=np.int32),
+        user_ptr=user_ptr,
+        user_no=user_no[user_kept],
+        user_earlier=_numpy(users, "is_earlier", np.bool_)[user_kept],
+        user_count=int(user_no.max()) + 1 if len(user_no) else 0,
+        value_ptr=value_ptr,
+        value_no=_numpy(valued, "value_no", np.int32)[value_kept],
+        value_user_no=value_user_no[value_kept],
+        value_n=_numpy(valued, "n", np.int64)[value_kept],
+        value_user_count=int(value_user_no.max()) + 1 if len(value_user_no) else 0,
+        values=values,
+    )
+
+
+@njit(cache=True, nogil=True)
+def _holds(values: np.ndarray, lo: int, hi: int, x: int) -> bool:  # pragma: no cover - compiled
+    """Whether x is among values[lo:hi] (a session's few error positions)."""
+    for i in range(lo, hi):  # noqa: SIM110 - a generator in any() does not compile
+        if values[i] == x:
+            return True
+    return False
+
+
+@njit(cache=True, nogil=True, parallel=True)
+def _session_kernel(  # pragma: no cover - compiled
+    items: np.ndarray,
+    starts: np.ndarray,
+    pattern_items: np.ndarray,
+    pattern_starts: np.ndarray,
+    pattern_gaps: np.ndarray,
+    framed: np.ndarray,
+    candidate_ptr: np.ndarray,
+    candidates: np.ndarray,
+    group_ptr: np.ndarray,
+    group_n: np.ndarray,
+    group_error: np.ndarray,
+    group_recent: np.ndarray,
+    error_ptr: np.ndarray,
+    error_positions: np.ndarray,
+    value_ptr: np.ndarray,
+    value_no: np.ndarray,
+    value_n: np.ndarray,
+    value_count: int,
+    event_rate: np.ndarray,
+    chunk_count: int,
+    tile_items: int,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """(hit per candidate sequence, counts, expected-rate sum and sessions, next failures per event,
+    sessions per segment value), one row per pattern; users are counted by ``_user_kernel``.
+
+    The sequences are taken a tile of about ``tile_items`` items at a time, every pattern of a
+    chunk going through its candidates in the tile before the next tile: the tile's items and
+    groups stay in the core's cache while dozens of patterns read them."""
+    patterns = pattern_starts.shape[0] - 1
+    width = 1
+    for p in range(patterns):
+        width = max(width, pattern_starts[p + 1] - pattern_starts[p])
+    sequences = starts.shape[0] - 1
+    longest = 2
+    for s in range(sequences):
+        longest = max(longest, starts[s + 1] - starts[s] + 2)
+    hit = np.zeros(candidates.shape[0], dtype=np.bool_)
+    counts = np.zeros((patterns, _COUNT_COLUMNS), dtype=np.int64)
+    rate_sum = np.zeros(patterns, dtype=np.float64)
+    rate_sessions = np.zeros(patterns, dtype=np.int64)
+    next_failures = np.zeros((patterns, event_rate.shape[0]), dtype=np.int64)
+    value_sessions = np.zeros((patterns, value_count), dtype=np.int64)
+    chunk_count = max(1, min(chunk_count, patterns))
+    for c in numba.prange(chunk_count):
+        cur = np.zeros(width, dtype=np.int64)
+        nxt = np.zeros(width, dtype=np.int64)
+        positions = np.zeros(width, dtype=np.int64)
+        dead = np.zeros(width * longest, dtype=np.int64)
+        cursor = candidate_ptr[:-1].copy()
+        tried = 0
+        tile_start = 0
+        while tile_start < sequences:
+            tile_end = tile_start + 1
+            while tile_end < sequences and starts[tile_end + 1] - starts[tile_start] <= tile_items:
+                tile_end += 1
+            for p in range(c, patterns, chunk_count):
+                a, b = pattern_starts[p], pattern_starts[p + 1]
+                k = b - a
+                gap = pattern_gaps[p]
+                is_framed = framed[p]
+                t = cursor[p]
+                while t < candidate_ptr[p + 1] and candidates[t] < tile_end:
+                    s = candidates[t]
+                    t += 1
+                    lo, hi = starts[s], starts[s + 1]
+                    tried += 1
+                    if not first_occurrence(items, lo, hi, pattern_items, a, b, gap, is_framed, cur, nxt, dead, tried):
+                        continue
+                    hit[t - 1] = True
+                    length = hi - lo
+                    for q in range(k):
+                        positions[q] = cur[q] if is_framed else cur[q] + 1  # session-path positions from 1
+                    after = positions[k - 1] + 1
+                    if after > length:
+                        after = -1
+                    after_event = items[lo + after - 1] if after > 0 else -1
+                    path_sessions = 0
+                    for g in range(group_ptr[s], group_ptr[s + 1]):
+                        m = group_n[g]
+                        path_sessions += m
+                        counts[p, _SESSIONS] += m
+                        if group_error[g]:
+                            counts[p, _ERRORS] += m
+                        if group_recent[g]:
+                            counts[p, _RECENT] += m
+                        if after > 0:
+                            counts[p, _NEXT] += m
+                        e0, e1 = error_ptr[g], error_ptr[g + 1]
+                        if e0 == e1:
+                            continue
+                        own = False
+                        for q in range(k):
+                            at = positions[q]
+                            if 1 <= at <= length and _holds(error_positions, e0, e1, at):
+                                own = True
+                                if q < STEP_COLUMNS:
+                                    counts[p, _STEP + q] += m
+                        if own:
+                            counts[p, _OWN] += m
+                        if after > 0 and _holds(error_positions, e0, e1, after):
+                            counts[p, _NEXT_ERRORS] += m
+                            next_failures[p, after_event] += m
+                    if after > 0 and not np.isnan(event_rate[after_event]):
+                        rate_sum[p] += path_sessions * event_rate[after_event]
+                        rate_sessions[p] += path_sessions
+                    for v in range(value_ptr[s], value_ptr[s + 1]):
+                        value_sessions[p, value_no[v]] += value_n[v]
+                cursor[p] = t
+            tile_start = tile_end
+    return hit, counts, rate_sum, rate_sessions, next_failures, value_sessions
+
+
+@njit(cache=True, nogil=True, parallel=True)
+def _user_kernel(  # pragma: no cover - compiled
+    hit: np.ndarray,
+    candidate_ptr: np.ndarray,
+    candidates: np.ndarray,
+    user_ptr: np.ndarray,
+    user_no: np.ndarray,
+    user_earlier: np.ndarray,
+    user_count: int,
+    value_ptr: np.ndarray,
+    value_no: np.ndarray,
+    value_user_no: np.ndarray,
+    value_count: int,
+    value_user_count: int,
+    counts: np.ndarray,
+    chunk_count: int,
+) -> np.ndarray:
+    """Distinct users (and users in the earlier half) per pattern into ``counts``, and the distinct
+    users per pattern and segment value (returned), over the sequences ``hit`` marks: one marker
+    per user (and per user and value) stamped with the pattern, so a user counts once."""
+    patterns = candidate_ptr.shape[0] - 1
+    value_users = np.zeros((patterns, value_count), dtype=np.int64)
+    chunk_count = max(1, min(chunk_count, patterns))
+    for c in numba.prange(chunk_count):
+        seen_user = np.zeros(user_count, dtype=np.int32)
+        seen_earlier = np.zeros(user_count, dtype=np.int32)
+        seen_value_user = np.zeros(value_user_count, dtype=np.int32)
+        for p in range(c, patterns, chunk_count):
+            stamp = p + 1
+            for t in range(candidate_ptr[p], candidate_ptr[p + 1]):
+                if not hit[t]:
+                    continue
+                s = candidates[t]
+                for u in range(user_ptr[s], user_ptr[s + 1]):
+                    user = user_no[u]
+                    if seen_user[user] != stamp:
+                        seen_user[user] = stamp
+                        counts[p, _USERS] += 1
+                    if user_earlier[u] and seen_earlier[user] != stamp:
+                        seen_earlier[user] = stamp
+                        counts[p, _EARLIER] += 1
+                for v in range(value_ptr[s], value_ptr[s + 1]):
+                    pair = value_user_no[v]
+                    if seen_value_user[pair] != stamp:
+                        seen_value_user[pair] = stamp
+                        value_users[p, value_no[v]] += 1
+    return value_users
 
 
 def gap_evidence(
-    con: duckdb.DuckDBPyConnection,
-    gap_paths: pa.Table,
-    event_rates: pa.Table,
+    db: SequenceDatabase,
+    sessions: PathSessions,
+    patterns: list[tuple[int, ...]],
     *,
-    candidates: int,
-    midpoint: Any,
-    include_automated: bool,
-) -> tuple[dict[int, dict[str, Any]], list[dict[str, Any]]]:
-    """(evidence per candidate with sessions and users, segment rows per candidate and value)."""
-    users = np.zeros(candidates + MASK_BITS, dtype=np.int64)
-    earlier = np.zeros(candidates + MASK_BITS, dtype=np.int64)
-    segment_users: dict[tuple[str, str], np.ndarray] = defaultdict(lambda: np.zeros(candidates + MASK_BITS, np.int64))
-    with registered(con, gap_paths=gap_paths, event_rates=event_rates):
-        run(con, "create_gap_session_groups", midpoint=midpoint, include_automated=include_automated)
-        try:
-            rows = fetch_dicts(con, "list_gap_session_evidence")
-            failing: dict[int, int] = {}
-            for r in fetch_dicts(con, "list_gap_next_failures"):
-                failing.setdefault(int(r["candidate"]), int(r["event_id"]))
-            segment_rows = fetch_dicts(con, "list_gap_segment_sessions", include_automated=include_automated)
-        finally:
-            run(con, "drop_gap_session_groups")
-        width = MASK_BITS
-        for offset in range(0, candidates, width):
-            run(con, "create_gap_path_masks", offset=offset, width=width)
-            try:
-                masks = fetch_arrow(con, "list_gap_user_masks", midpoint=midpoint, include_automated=include_automated)
-                by_value = fetch_arrow(con, "list_gap_segment_user_masks", include_automated=include_automated)
-            finally:
-                run(con, "drop_gap_path_masks")
-            weights = _column(masks, "users")
-            users[offset : offset + width] += _bit_counts(_column(masks, "low"), _column(masks, "high"), weights)[
-                :width
-            ]
-            earlier[offset : offset + width] += _bit_counts(
-                _column(masks, "earlier_low"), _column(masks, "earlier_high"), weights
-            )[:width]
-            segments, values = _column(by_value, "segment"), _column(by_value, "value")
-            low, high, counts = _column(by_value, "low"), _column(by_value, "high"), _column(by_value, "users")
-            # rows come ordered by segment and value: cut them where either changes
-            changed = np.flatnonzero((segments[1:] != segments[:-1]) | (values[1:] != values[:-1])) + 1
-            bounds = [0, *changed.tolist(), len(segments)] if len(segments) else [0]
-            for lo, hi in itertools.pairwise(bounds):
-                segment_users[(str(segments[lo]), str(values[lo]))][offset : offset + width] += _bit_counts(
-                    low[lo:hi], high[lo:hi], counts[lo:hi]
-                )[:width]
-    evidence = {}
-    for r in rows:
-        c = int(r["candidate"])
-        evidence[c] = {
-            **r,
-            "users": int(users[c]),
-            "earlier_users": int(earlier[c]),
-            "next_failing_event_id": failing.get(c),
+    max_gaps: list[int | None],
+    framed: list[bool],
+    event_rate: np.ndarray,
+    index: EventIndex,
+) -> tuple[dict[int, dict[str, Any]], list[dict[str, Any]], np.ndarray, np.ndarray]:
+    """(evidence per pattern that some counted session holds, segment rows per pattern and value,
+    and the (pattern, sequence) pairs that contain each pattern, as ``containing_sequences`` gives).
+
+    ``event_rate[e]``: the failure rate of event e anywhere (NaN when unknown); ``index``:
+    ``matching.event_index(db)``."""
+    if not patterns or db.sequence_count == 0:
+        return {}, [], np.zeros(0, np.int64), np.zeros(0, np.int64)
+    lengths = np.array([len(p) for p in patterns], dtype=np.int64)
+    if (lengths == 0).any():
+        raise ValueError("patterns must have at least one event")
+    pattern_starts = np.zeros(len(patterns) + 1, dtype=np.int64)
+    np.cumsum(lengths, out=pattern_starts[1:])
+    flat = np.array([e for p in patterns for e in p], dtype=np.int32)
+    gaps = np.array([-1 if g is None else int(g) for g in max_gaps], dtype=np.int64)
+    candidate_ptr, candidates = candidate_sequences(db, patterns, index)
+    top_event = max(int(db.items.max()) + 1 if len(db.items) else 0, 2)
+    rates = np.full(top_event, np.nan)
+    rates[: min(top_event, len(event_rate))] = event_rate[:top_event]
+    chunks = CHUNKS_PER_THREAD * numba.get_num_threads()
+    hit, counts, rate_sum, rate_sessions, next_failures, value_sessions = _session_kernel(
+        np.ascontiguousarray(db.items, dtype=np.int32),
+        np.ascontiguousarray(db.starts, dtype=np.int64),
+        flat,
+        pattern_starts,
+        gaps,
+        np.array(framed, dtype=np.bool_),
+        candidate_ptr,
+        candidates,
+        sessions.group_ptr,
+        sessions.group_n,
+        sessions.group_error,
+        sessions.group_recent,
+        sessions.error_ptr,
+        sessions.error_positions,
+        sessions.value_ptr,
+        sessions.value_no,
+        sessions.value_n,
+        len(sessions.values),
+        rates,
+        chunks,
+        TILE_ITEMS,
+    )
+    value_users = _user_kernel(
+        hit,
+        candidate_ptr,
+        candidates,
+        sessions.user_ptr,
+        sessions.user_no,
+        sessions.user_earlier,
+        sessions.user_count,
+        sessions.value_ptr,
+        sessions.value_no,
+        sessions.value_user_no,
+        len(sessions.values),
+        sessions.value_user_count,
+        counts,
+        chunks,
+    )
+    found = np.flatnonzero(hit)
+    which = np.searchsorted(candidate_ptr, found, side="right") - 1
+    evidence: dict[int, dict[str, Any]] = {}
+    for p in np.flatnonzero(counts[:, _SESSIONS] > 0).tolist():
+        row = counts[p]
+        failing = next_failures[p]
+        evidence[p] = {
+            "candidate": p,
+            "sessions": int(row[_SESSIONS]),
+            "users": int(row[_USERS]),
+            "error_sessions": int(row[_ERRORS]),
+            "recent_sessions": int(row[_RECENT]),
+            "earlier_users": int(row[_EARLIER]),
+            "own_error_sessions": int(row[_OWN]),
+            **{f"step_errors_{q + 1}": int(row[_STEP + q]) for q in range(STEP_COLUMNS)},
+            "next_sessions": int(row[_NEXT]),
+            "next_error_sessions": int(row[_NEXT_ERRORS]),
+            "next_expected_rate": float(rate_sum[p] / rate_sessions[p]) if rate_sessions[p] else None,
+            # the event that most often failed right after (ties: the lowest id)
+            "next_failing_event_id": int(failing.argmax()) if failing.any() else None,
         }
-    segments_out = [
-        {**r, "users": int(segment_users[(r["segment"], r["value"])][int(r["candidate"])])} for r in segment_rows
+    segment_rows = [
+        {
+            "candidate": int(p),
+            "segment": sessions.values[v][0],
+            "value": sessions.values[v][1],
+            "sessions": int(value_sessions[p, v]),
+            "users": int(value_users[p, v]),
+        }
+        for p, v in zip(*np.nonzero(value_sessions), strict=True)
     ]
-    return evidence, segments_out
+    return evidence, segment_rows, which, candidates[found]

@@ -38,10 +38,9 @@ from gapfinder.coverage import (
 )
 from gapfinder.disclosure import kpath_parents
 from gapfinder.errors import ConfigError
-from gapfinder.gap_evidence import MASK_BITS, gap_evidence
+from gapfinder.gap_evidence import gap_evidence, load_path_sessions
 from gapfinder.matching import containing_sequences, event_index
 from gapfinder.mining import use_python
-from gapfinder.occurrences import first_occurrences
 from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated
 from gapfinder.periods import Period, split_in_halves, time_zone
@@ -330,21 +329,21 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
     return shown
 
 
-PAIRS_PER_BLOCK = 8_000_000  # (candidate, path) pairs a block of gap evidence aims at (~0.5 GB)
-_FRAME_BLOCK_ROWS = 1 << 20  # (candidate, path) pairs masked at a time in _occurrence_frame
+BLOCK_CANDIDATES = 128  # candidates whose evidence is added up at once (dense arrays per candidate)
+PAIRS_PER_BLOCK = 16_000_000  # (candidate, path) pairs a block of gap evidence aims at
 
 
 def _blocks(pool: list[_Candidate], distinct_paths: int, sessions: int) -> list[tuple[int, int]]:
-    """(start, end) of consecutive blocks of the pool: at most MASK_BITS candidates, and about
-    PAIRS_PER_BLOCK (candidate, distinct path) pairs, a candidate being expected on its share of
-    the sessions times the distinct paths (so the most common candidates, first in the pool, come
+    """(start, end) of consecutive blocks of the pool: at most BLOCK_CANDIDATES candidates, and
+    about PAIRS_PER_BLOCK (candidate, distinct path) pairs, a candidate being expected on its share
+    of the sessions times the distinct paths (so the most common candidates, first in the pool, come
     in smaller blocks); a candidate alone may exceed it."""
     per_session = distinct_paths / sessions if sessions else 0.0
     out: list[tuple[int, int]] = []
     lo, pairs = 0, 0.0
     for i, cand in enumerate(pool):
         expected = cand.sessions * per_session
-        if i > lo and (i - lo == MASK_BITS or pairs + expected > PAIRS_PER_BLOCK):
+        if i > lo and (i - lo == BLOCK_CANDIDATES or pairs + expected > PAIRS_PER_BLOCK):
             out.append((lo, i))
             lo, pairs = i, 0.0
         pairs += expected
@@ -354,32 +353,30 @@ def _blocks(pool: list[_Candidate], distinct_paths: int, sessions: int) -> list[
 
 
 def _evidence_in_blocks(
-    con: Any, db: Any, pool: list[_Candidate], rates: pa.Table, *, midpoint: Any, include_automated: bool
+    con: Any, db: Any, pool: list[_Candidate], event_rate: np.ndarray, *, midpoint: Any, include_automated: bool
 ) -> tuple[dict[int, dict[str, Any]], list[dict[str, Any]], np.ndarray, np.ndarray]:
     """gap_evidence for the pool in blocks (``_blocks``), with the (candidate, distinct path) pairs of
     every candidate (for session_sets).
 
-    A candidate's evidence depends on no other candidate, and gap_evidence counts users MASK_BITS
-    candidates at a time anyway, so blocks of that size give the very same numbers; only a block's
-    occurrence positions and frame are held at once (at 50M high-entropy events the pool matches
-    about 60M pairs: the frame alone took 2.6 GB)."""
-    assert db.path_ids is not None
+    A candidate's evidence depends on no other candidate, so blocks give the very same numbers;
+    only a block's candidate paths and per-candidate arrays are held at once."""
     evidence: dict[int, dict[str, Any]] = {}
     segment_rows: list[dict[str, Any]] = []
     all_which: list[np.ndarray] = []
     all_sequence: list[np.ndarray] = []
+    sessions = load_path_sessions(con, db, midpoint=midpoint, include_automated=include_automated)
     index = event_index(db, plain=use_python("auto", len(db.items)))  # once for every block
     for lo, hi in _blocks(pool, db.sequence_count, int(db.weights.sum())):
         block = pool[lo:hi]
-        paths, gaps, framed = [c.path for c in block], [c.gap for c in block], [c.framed for c in block]
-        which, sequence = containing_sequences(db, paths, max_gaps=gaps, framed=framed, index=index)
-        positions, after = first_occurrences(db, paths, max_gaps=gaps, framed=framed, which=which, sequence=sequence)
-        frame = _occurrence_frame(block, which, db.path_ids[sequence], db.starts, sequence, positions, after, db.items)
-        del positions, after
-        found, segments = gap_evidence(
-            con, frame, rates, candidates=len(block), midpoint=midpoint, include_automated=include_automated
+        found, segments, which, sequence = gap_evidence(
+            db,
+            sessions,
+            [c.path for c in block],
+            max_gaps=[c.gap for c in block],
+            framed=[c.framed for c in block],
+            event_rate=event_rate,
+            index=index,
         )
-        del frame
         evidence.update({c + lo: {**ev, "candidate": c + lo} for c, ev in found.items()})
         segment_rows.extend({**r, "candidate": int(r["candidate"]) + lo} for r in segments)
         all_which.append((which + lo).astype(np.int32))
@@ -389,71 +386,6 @@ def _evidence_in_blocks(
         segment_rows,
         np.concatenate(all_which) if all_which else np.zeros(0, np.int32),
         np.concatenate(all_sequence) if all_sequence else np.zeros(0, np.int32),
-    )
-
-
-def _occurrence_frame(
-    pool: list[_Candidate],
-    which: np.ndarray,
-    path_ids: np.ndarray,
-    starts: np.ndarray,
-    sequence: np.ndarray,
-    positions: np.ndarray,
-    after: np.ndarray,
-    items: np.ndarray,
-) -> pa.Table:
-    """(candidate, path_id, step_positions, event_positions, after_position, after_event) per matched
-    distinct path.
-
-    Built column-wise: a step's position is kept when it is an event of the path (1..length; START
-    and END give NULL step positions and no event position); ``after_event`` is the event id at
-    ``after_position`` (NULL when no event of the path follows), read here from the paths' ``items``
-    so the evidence queries need not join every pair with the paths' lists."""
-    # At 10M high-entropy events there are 12M pairs: the masks are made a block of rows at a time,
-    # so the temporaries are a block's, not the whole frame's (the peak of `run` fell 0.5 GB).
-    k = np.array([len(c.path) for c in pool], dtype=np.int32)[which] if len(which) else np.zeros(0, np.int32)
-    width = positions.shape[1] if positions.ndim == 2 else 0
-    step_offsets = np.zeros(len(which) + 1, dtype=np.int32)
-    np.cumsum(k, out=step_offsets[1:])
-    # Filled block by block; events are at most the steps, so both fit the steps' length.
-    step_values = np.empty(int(step_offsets[-1]), dtype=np.int32)
-    step_missing = np.empty(int(step_offsets[-1]), dtype=np.bool_)
-    event_values = np.empty(int(step_offsets[-1]), dtype=np.int32)
-    event_offsets = np.zeros(len(which) + 1, dtype=np.int32)
-    after_event = np.zeros(len(which), dtype=np.int32)
-    after_missing = np.ones(len(which), dtype=np.bool_)
-    steps_before = np.arange(width, dtype=np.int32)[None, :]
-    filled = 0
-    for lo in range(0, len(which), _FRAME_BLOCK_ROWS):
-        hi = min(lo + _FRAME_BLOCK_ROWS, len(which))
-        at = positions[lo:hi].astype(np.int32, copy=False)
-        lengths = (starts[sequence[lo:hi] + 1] - starts[sequence[lo:hi]]).astype(np.int32)
-        next_at = after[lo:hi]
-        has_next = (next_at >= 1) & (next_at <= lengths)
-        after_missing[lo:hi] = ~has_next
-        after_event[lo:hi][has_next] = items[starts[sequence[lo:hi][has_next]] + next_at[has_next] - 1]
-        steps = steps_before < k[lo:hi, None]
-        in_path = at >= 1
-        in_path &= at <= lengths[:, None]
-        in_path &= steps
-        step_values[step_offsets[lo] : step_offsets[hi]] = at[steps]
-        step_missing[step_offsets[lo] : step_offsets[hi]] = ~in_path[steps]
-        events = at[in_path]
-        event_values[filled : filled + len(events)] = events
-        filled += len(events)
-        np.cumsum(in_path.sum(axis=1, dtype=np.int32), out=event_offsets[lo + 1 : hi + 1])
-        event_offsets[lo + 1 : hi + 1] += event_offsets[lo]
-    steps_array = pa.array(step_values, mask=step_missing)
-    events_array = pa.array(event_values[:filled])
-    return pa.table(
-        {
-            "candidate": pa.array(which, pa.int64()),
-            "path_id": pa.array(path_ids, pa.int64()),
-            "step_positions": pa.ListArray.from_arrays(pa.array(step_offsets), steps_array),
-            "event_positions": pa.ListArray.from_arrays(pa.array(event_offsets), events_array),
-            "after_position": pa.array(after.astype(np.int32, copy=False), mask=after <= 0),
-            "after_event": pa.array(after_event, mask=after_missing),
-        }
     )
 
 
@@ -618,6 +550,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
     ws.release_cached_memory()  # the k-path items and the (candidate, path) pairs are held in arrays
     tests = load_test_paths(ws)
     items = load_field_items(ws)
+    ws.release_cached_memory()  # the k-path cells DuckDB just read stay cached otherwise
     exercised, pattern_exercised = exercised_masks(tests, items, max_gap=options.max_gap)
     pool, candidate_count, suppressed = _candidates(
         items,
@@ -627,6 +560,9 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         min_users=options.min_users,
         pool=options.pool_size(),
     )
+    features = np.flatnonzero((items.k == 1) & (items.users >= options.min_users))
+    nameable = {items.path(int(r))[0] for r in features}
+    del items, exercised, pattern_exercised  # every k-path's arrays: not needed past the candidates
 
     con = ws.con
     include_automated = profile_included_automated(con)
@@ -668,14 +604,12 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
     }
     all_occurrences = sum(o for o, _ in totals.values())
     event_error_rate = sum(e for _, e in totals.values()) / all_occurrences if all_occurrences else 0.0
-    rates = pa.table(
-        {
-            "event_id": pa.array(list(totals), pa.int32()),
-            "rate": pa.array([e / o if o else 0.0 for o, e in totals.values()], pa.float64()),
-        }
-    )
+    # the failure rate of each event anywhere, by event id (NaN: never seen in a counted session)
+    event_rate = np.full(max(totals, default=0) + 1, np.nan)
+    for event, (occurrences, errors) in totals.items():
+        event_rate[event] = errors / occurrences if occurrences else 0.0
     evidence, segment_rows, which, sequence = _evidence_in_blocks(
-        con, db, pool, rates, midpoint=recent_half.start, include_automated=include_automated
+        con, db, pool, event_rate, midpoint=recent_half.start, include_automated=include_automated
     )
     # A segment value is named only when the gap's sessions in it and the value itself each have
     # at least min_users distinct users (an app version one person used must not be shown).
@@ -697,8 +631,6 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
                 {"segment": r["segment"], "value": r["value"], "share_of_gap": gap_share, "lift": lift}
             )
 
-    features = np.flatnonzero((items.k == 1) & (items.users >= options.min_users))
-    nameable = {items.path(int(r))[0] for r in features}
     ranked: list[dict[str, Any]] = []
     for index, cand in enumerate(pool):
         ev = evidence.get(index)

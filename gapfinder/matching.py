@@ -19,7 +19,7 @@ from numba import njit
 from gapfinder.compiled import grow, python_twin
 from gapfinder.mining import SequenceDatabase, use_python
 
-__all__ = ["EventIndex", "containing_sequences", "event_index", "state_at"]
+__all__ = ["EventIndex", "candidate_sequences", "containing_sequences", "event_index", "state_at"]
 
 _I32 = np.int32
 _I64 = np.int64
@@ -174,11 +174,11 @@ def containing_sequences(
     if (lengths == 0).any():
         raise ValueError("patterns must have at least one event")
     plain_index = use_python(engine, len(db.items))
-    candidate_ptr, candidates = _candidate_sequences(db, patterns, index or event_index(db, plain=plain_index))
+    candidate_ptr, candidates = candidate_sequences(db, patterns, index or event_index(db, plain=plain_index))
     work = len(candidates) * max(1, len(db.items) // max(db.sequence_count, 1))
     small = plain_index and (engine == "python" or work <= 500_000)
     matcher = _match_python if small else _match_kernel
-    result: tuple[np.ndarray, np.ndarray] = matcher(
+    which, sequence = matcher(
         np.ascontiguousarray(db.items, dtype=_I32),
         np.ascontiguousarray(db.starts, dtype=_I64),
         flat,
@@ -189,7 +189,7 @@ def containing_sequences(
         candidates,
         MATCH_CHUNKS_PER_THREAD * numba.get_num_threads(),
     )
-    return result
+    return np.asarray(which, dtype=np.int64), np.asarray(sequence, dtype=np.int64)
 
 
 EventIndex = tuple[np.ndarray, np.ndarray]  # (bounds, sequences): see event_index
@@ -208,7 +208,7 @@ def event_index(db: SequenceDatabase, *, plain: bool = False) -> EventIndex:
     return result
 
 
-def _candidate_sequences(
+def candidate_sequences(
     db: SequenceDatabase, patterns: list[tuple[int, ...]], index: EventIndex
 ) -> tuple[np.ndarray, np.ndarray]:
     """Per pattern, the sequences that contain its rarest event (from ``index``): only those can
@@ -217,7 +217,7 @@ def _candidate_sequences(
     n_seq = db.sequence_count
     bounds, sequence_of_key = index
     top_event = len(bounds) - 1
-    everything = np.arange(n_seq, dtype=np.int64)
+    everything = np.arange(n_seq, dtype=np.int32)
     lists = []
     for pattern in patterns:
         real = [e for e in pattern if e > 1]
@@ -231,7 +231,8 @@ def _candidate_sequences(
         lists.append(sequence_of_key[bounds[rarest] : bounds[rarest + 1]])
     ptr = np.zeros(len(patterns) + 1, dtype=np.int64)
     np.cumsum([len(x) for x in lists], out=ptr[1:])
-    flat = np.concatenate(lists).astype(np.int64) if lists else np.zeros(0, np.int64)
+    # int32, as the index holds them: at 50M high-entropy events a block lists ~60M candidates
+    flat = np.concatenate(lists).astype(np.int32, copy=False) if lists else np.zeros(0, np.int32)
     return ptr, flat
 
 

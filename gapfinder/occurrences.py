@@ -16,7 +16,73 @@ from numba import njit
 from gapfinder.matching import state_at
 from gapfinder.mining import SequenceDatabase
 
-__all__ = ["first_occurrences"]
+__all__ = ["first_occurrence", "first_occurrences"]
+
+
+@njit(cache=True, nogil=True)
+def first_occurrence(  # pragma: no cover - compiled
+    items: np.ndarray,
+    lo: int,
+    hi: int,
+    pattern_items: np.ndarray,
+    a: int,
+    b: int,
+    gap: int,
+    is_framed: bool,
+    cur: np.ndarray,
+    nxt: np.ndarray,
+    dead: np.ndarray,
+    stamp: int,
+) -> bool:
+    """Whether pattern[a:b] occurs in the sequence items[lo:hi] (read framed or not) with at most
+    ``gap`` events between steps (any when negative); when it does, ``cur[:b - a]`` holds the
+    positions (from 0 in the read sequence) of the occurrence that starts leftmost, each step as
+    early as the gap bound allows.
+
+    Without a bound the earliest match of each step in turn is that occurrence (one sweep). With
+    one, a depth-first search: a step placed at position j that cannot be completed is remembered
+    as dead (``dead[q * stride + j] == stamp``, stride = len(dead) // len(cur)), so no position
+    is expanded twice and the search stays within k × n × (gap + 1) steps. ``nxt``: scratch of
+    ``cur``'s width; ``stamp``: a value not used before with this ``dead`` array."""
+    k = b - a
+    n = hi - lo + (2 if is_framed else 0)
+    if gap < 0:
+        q = 0
+        for j in range(n):
+            if state_at(items, lo, hi, j, is_framed) == pattern_items[a + q]:
+                cur[q] = j
+                q += 1
+                if q == k:
+                    return True
+        return False
+    stride = dead.shape[0] // cur.shape[0]
+    for j0 in range(n - k + 1):
+        if state_at(items, lo, hi, j0, is_framed) != pattern_items[a]:
+            continue
+        cur[0] = j0
+        if k == 1:
+            return True
+        q = 1
+        nxt[1] = j0 + 1
+        while q >= 1:
+            limit = min(n - 1, cur[q - 1] + 1 + gap)
+            hit = -1
+            for j in range(nxt[q], limit + 1):
+                if state_at(items, lo, hi, j, is_framed) == pattern_items[a + q] and dead[q * stride + j] != stamp:
+                    hit = j
+                    break
+            if hit < 0:
+                q -= 1  # no completion from step q - 1 where it stands
+                if q >= 1:
+                    dead[q * stride + cur[q]] = stamp
+                    nxt[q] = cur[q] + 1
+                continue
+            cur[q] = hit
+            if q == k - 1:
+                return True
+            q += 1
+            nxt[q] = cur[q - 1] + 1
+    return False
 
 
 @njit(cache=True, nogil=True)
@@ -33,57 +99,28 @@ def _occurrence_kernel(  # pragma: no cover - compiled
     after: np.ndarray,
 ) -> None:
     width = out.shape[1]
+    longest = 2
+    for s in range(starts.shape[0] - 1):
+        longest = max(longest, starts[s + 1] - starts[s] + 2)
     cur = np.zeros(width, dtype=np.int64)
     nxt = np.zeros(width, dtype=np.int64)
+    dead = np.zeros(width * longest, dtype=np.int64)
     for r in range(pair_pattern.shape[0]):
         p = pair_pattern[r]
         s = pair_sequence[r]
         a, b = pattern_starts[p], pattern_starts[p + 1]
         k = b - a
-        gap = pattern_gaps[p]
         is_framed = framed[p]
         lo, hi = starts[s], starts[s + 1]
-        n = hi - lo + (2 if is_framed else 0)
-        found = False
-        for j0 in range(n):
-            if state_at(items, lo, hi, j0, is_framed) != pattern_items[a]:
-                continue
-            cur[0] = j0
-            if k == 1:
-                found = True
-                break
-            q = 1
-            nxt[1] = j0 + 1
-            while q >= 1:
-                limit = n - 1 if gap < 0 else min(n - 1, cur[q - 1] + 1 + gap)
-                hit = -1
-                for j in range(nxt[q], limit + 1):
-                    if state_at(items, lo, hi, j, is_framed) == pattern_items[a + q]:
-                        hit = j
-                        break
-                if hit < 0:
-                    q -= 1
-                    if q >= 1:
-                        nxt[q] = cur[q] + 1
-                    continue
-                cur[q] = hit
-                if q == k - 1:
-                    found = True
-                    break
-                q += 1
-                nxt[q] = cur[q - 1] + 1
-            if found:
-                break
-        length = hi - lo
         for q in range(width):
             out[r, q] = -1
-        if not found:
+        if not first_occurrence(items, lo, hi, pattern_items, a, b, pattern_gaps[p], is_framed, cur, nxt, dead, r + 1):
             after[r] = -1
             continue
         for q in range(k):
             out[r, q] = cur[q] if is_framed else cur[q] + 1  # session-path positions from 1
         last = out[r, k - 1]
-        after[r] = last + 1 if 1 <= last + 1 <= length else -1
+        after[r] = last + 1 if 1 <= last + 1 <= hi - lo else -1
 
 
 def first_occurrences(

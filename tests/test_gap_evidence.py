@@ -7,11 +7,14 @@ import shutil
 from pathlib import Path
 from typing import Any
 
+import pyarrow as pa
 import pytest
 
 import gapfinder.gap_evidence as gap_evidence_module
 import gapfinder.gaps as gaps_module
 from gapfinder.gaps import GapOptions, find_gaps
+from gapfinder.matching import containing_sequences
+from gapfinder.occurrences import first_occurrences
 from gapfinder.sql import registered
 from gapfinder.workspace import Workspace
 
@@ -33,7 +36,7 @@ SELECT
     count(*) FILTER (WHERE list_contains(s.error_positions, g.step_positions[7]))::BIGINT AS step_errors_7,
     count(*) FILTER (WHERE g.after_position IS NOT NULL)::BIGINT AS next_sessions,
     count(*) FILTER (WHERE list_contains(s.error_positions, g.after_position))::BIGINT AS next_error_sessions,
-    avg(r.rate) FILTER (WHERE g.after_position IS NOT NULL) AS next_expected_rate
+    avg(r.rate) FILTER (WHERE g.after_position IS NOT NULL AND NOT isnan(r.rate)) AS next_expected_rate
 FROM gap_paths AS g
 JOIN sessions AS s ON s.path_id = g.path_id
 LEFT JOIN event_rates AS r ON r.event_id = s.path[g.after_position]
@@ -69,47 +72,87 @@ def _dicts(cursor: Any) -> list[dict[str, Any]]:
     return [dict(zip(columns, row, strict=True)) for row in cursor.fetchall()]
 
 
-@pytest.mark.parametrize(("top", "width"), [(3, 128), (20, 128), (20, 16)])
+def _occurrence_frame(db: Any, patterns: list[tuple[int, ...]], kwargs: dict[str, Any]) -> pa.Table:
+    """(candidate, path_id, step_positions, event_positions, after_position) per (pattern, distinct
+    path) pair, from the matcher and the occurrence kernel, built row by row."""
+    which, sequence = containing_sequences(db, patterns, max_gaps=kwargs["max_gaps"], framed=kwargs["framed"])
+    positions, after = first_occurrences(
+        db, patterns, max_gaps=kwargs["max_gaps"], framed=kwargs["framed"], which=which, sequence=sequence
+    )
+    rows: dict[str, list[Any]] = {
+        k: [] for k in ("candidate", "path_id", "step_positions", "event_positions", "after_position")
+    }
+    for r, (c, s) in enumerate(zip(which.tolist(), sequence.tolist(), strict=True)):
+        length = int(db.starts[s + 1] - db.starts[s])
+        steps = positions[r, : len(patterns[c])].tolist()
+        rows["candidate"].append(c)
+        rows["path_id"].append(int(db.path_ids[s]))
+        rows["step_positions"].append([q if 1 <= q <= length else None for q in steps])
+        rows["event_positions"].append([q for q in steps if 1 <= q <= length])
+        rows["after_position"].append(int(after[r]) if after[r] > 0 else None)
+    return pa.table(rows)
+
+
+@pytest.mark.parametrize(("top", "block"), [(3, 128), (20, 128), (20, 16)])
 def test_equals_the_join_of_every_session(
-    tmp_path: Path, suite_workspace: Path, monkeypatch: pytest.MonkeyPatch, top: int, width: int
+    tmp_path: Path, suite_workspace: Path, monkeypatch: pytest.MonkeyPatch, top: int, block: int
 ) -> None:
     ws_path = tmp_path / "ws.duckdb"
     shutil.copy(suite_workspace, ws_path)
     calls: list[tuple[Any, ...]] = []
     real = gaps_module.gap_evidence
+    recorded: dict[str, Any] = {}
 
-    def recording(con: Any, frame: Any, rates: Any, **kwargs: Any) -> Any:
-        result = real(con, frame, rates, **kwargs)
-        calls.append((con, frame, rates, kwargs, result))
+    def recording(db: Any, sessions: Any, patterns: Any, **kwargs: Any) -> Any:
+        result = real(db, sessions, patterns, **kwargs)
+        calls.append((db, patterns, kwargs, result))
         return result
 
+    def recording_sessions(con: Any, db: Any, **kwargs: Any) -> Any:
+        recorded.update(kwargs)
+        return gap_evidence_module.load_path_sessions(con, db, **kwargs)
+
     monkeypatch.setattr(gaps_module, "gap_evidence", recording)
-    monkeypatch.setattr(gap_evidence_module, "MASK_BITS", width)  # 16: several masks, as past 128 candidates
+    monkeypatch.setattr(gaps_module, "load_path_sessions", recording_sessions)
+    monkeypatch.setattr(gaps_module, "BLOCK_CANDIDATES", block)  # 16: several blocks, the last one partly used
     with Workspace(ws_path, read_only=True) as ws:
         find_gaps(ws, GapOptions(top=top))
-        ((con, frame, rates, kwargs, (evidence, segments)),) = calls
-        params = {"midpoint": kwargs["midpoint"], "include_automated": kwargs["include_automated"]}
-        with registered(con, gap_paths=frame, event_rates=rates):
-            expected = {r["candidate"]: r for r in _dicts(con.execute(PER_SESSION_EVIDENCE, params))}
-            failures = _dicts(
-                con.execute(PER_SESSION_NEXT_FAILURES, {"include_automated": kwargs["include_automated"]})
+        assert len(calls) == 1 or block == 16
+        if block == 16:
+            assert len(calls) > 3, "several blocks"
+        con = ws.con
+        rates = pa.table(
+            {
+                "event_id": pa.array(range(len(calls[0][2]["event_rate"])), pa.int32()),
+                "rate": pa.array(calls[0][2]["event_rate"], pa.float64(), from_pandas=True),
+            }
+        )
+        params = {"midpoint": recorded["midpoint"], "include_automated": recorded["include_automated"]}
+        automated = {"include_automated": recorded["include_automated"]}
+        for db, patterns, kwargs, (evidence, segments, which, sequence) in calls:
+            frame = _occurrence_frame(db, patterns, kwargs)
+            want_which, want_sequence = containing_sequences(
+                db, patterns, max_gaps=kwargs["max_gaps"], framed=kwargs["framed"]
             )
-            expected_segments = _dicts(
-                con.execute(PER_SESSION_SEGMENTS, {"include_automated": kwargs["include_automated"]})
+            assert sorted(zip(which.tolist(), sequence.tolist(), strict=True)) == sorted(
+                zip(want_which.tolist(), want_sequence.tolist(), strict=True)
             )
-    if width == 16:
-        assert kwargs["candidates"] > 3 * width, "several masks, the last one partly used"
-    assert evidence.keys() == expected.keys() and evidence
-    for candidate, want in expected.items():
-        got = evidence[candidate]
-        for key, value in want.items():
-            if key == "next_expected_rate" and value is not None:
-                assert got[key] == pytest.approx(value, rel=1e-12), (candidate, key)
-            else:
-                assert got[key] == value, (candidate, key)
-        counts = {r["event_id"]: r["sessions"] for r in failures if r["candidate"] == candidate}
-        if counts:
-            assert counts[got["next_failing_event_id"]] == max(counts.values())
-        else:
-            assert got["next_failing_event_id"] is None
-    assert segments == expected_segments
+            with registered(con, gap_paths=frame, event_rates=rates):
+                expected = {r["candidate"]: r for r in _dicts(con.execute(PER_SESSION_EVIDENCE, params))}
+                failures = _dicts(con.execute(PER_SESSION_NEXT_FAILURES, automated))
+                expected_segments = _dicts(con.execute(PER_SESSION_SEGMENTS, automated))
+            assert evidence.keys() == expected.keys() and evidence
+            for candidate, want in expected.items():
+                got = evidence[candidate]
+                for key, value in want.items():
+                    if key == "next_expected_rate" and value is not None:
+                        assert got[key] == pytest.approx(value, rel=1e-12), (candidate, key)
+                    else:
+                        assert got[key] == value, (candidate, key)
+                counts = {r["event_id"]: r["sessions"] for r in failures if r["candidate"] == candidate}
+                if counts:
+                    best = max(counts.values())
+                    assert got["next_failing_event_id"] == min(e for e, n in counts.items() if n == best)
+                else:
+                    assert got["next_failing_event_id"] is None
+            assert segments == expected_segments

@@ -213,13 +213,13 @@ def test_session_sets_are_the_same_from_ordered_or_shuffled_pairs() -> None:
 def test_evidence_in_blocks_of_any_size_equals_one_block(
     suite_workspace: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    """Gap evidence is computed MASK_BITS candidates at a time; blocks of 7 (the pool of 300 in 43
+    """Gap evidence is computed in blocks of at most BLOCK_CANDIDATES candidates; blocks of 7 (the pool of 300 in 43
     blocks, the last one short) must give the very same listing, evidence and examples included."""
     import gapfinder.gaps as gaps_module
 
     with Workspace(suite_workspace, read_only=True) as ws:
         whole = find_gaps(ws, GapOptions(top=10))
-        monkeypatch.setattr(gaps_module, "MASK_BITS", 7)
+        monkeypatch.setattr(gaps_module, "BLOCK_CANDIDATES", 7)
         blocked = find_gaps(ws, GapOptions(top=10))
         monkeypatch.setattr(gaps_module, "PAIRS_PER_BLOCK", 50)  # blocks by expected pairs: often one candidate
         by_pairs = find_gaps(ws, GapOptions(top=10))
@@ -229,13 +229,13 @@ def test_evidence_in_blocks_of_any_size_equals_one_block(
 
 
 def test_blocks_cover_the_pool_in_order_within_both_bounds() -> None:
-    from gapfinder.gaps import MASK_BITS, PAIRS_PER_BLOCK, _blocks, _Candidate
+    from gapfinder.gaps import BLOCK_CANDIDATES, PAIRS_PER_BLOCK, _blocks, _Candidate
 
     pool = [_Candidate("kpath", (2, 3), sessions, sessions, True, 0) for sessions in [900, 500, 40, 40, 3, *[1] * 300]]
     blocks = _blocks(pool, distinct_paths=PAIRS_PER_BLOCK * 10, sessions=1000)  # a session: 1 % of the budget
     assert blocks[:3] == [(0, 1), (1, 2), (2, 22)]  # 9x and 5x the budget alone; then 40 + 40 + 3 + 17 x 1
     assert [lo for lo, _ in blocks[1:]] == [hi for _, hi in blocks[:-1]] and blocks[-1][1] == len(pool)
-    assert all(0 < hi - lo <= MASK_BITS for lo, hi in blocks)
+    assert all(0 < hi - lo <= BLOCK_CANDIDATES for lo, hi in blocks)
 
 
 def test_frontier_equals_a_check_by_sets(suite_workspace: Path) -> None:

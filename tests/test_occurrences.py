@@ -1,0 +1,84 @@
+"""The first occurrence of a pattern in a sequence: the leftmost start, each step as early as the gap
+bound allows, which is the lexicographically smallest tuple of positions; checked against an
+enumeration of every tuple."""
+
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from gapfinder.mining import SequenceDatabase
+from gapfinder.occurrences import first_occurrences
+
+
+def _smallest_occurrence(
+    sequence: list[int], pattern: tuple[int, ...], gap: int | None, framed: bool
+) -> list[int] | None:
+    """Positions (from 1 in the session path; 0 START, len + 1 END) of the lexicographically smallest
+    occurrence, by trying every tuple of increasing positions."""
+    read = [0, *sequence, 1] if framed else sequence
+    for chosen in itertools.combinations(range(len(read)), len(pattern)):
+        if any(read[j] != e for j, e in zip(chosen, pattern, strict=True)):
+            continue
+        if gap is not None and any(b - a - 1 > gap for a, b in itertools.pairwise(chosen)):
+            continue
+        return [j if framed else j + 1 for j in chosen]
+    return None
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    sequences=st.lists(st.lists(st.integers(2, 4), min_size=1, max_size=9), min_size=1, max_size=6),
+    patterns=st.lists(
+        st.tuples(
+            st.lists(st.integers(0, 4), min_size=1, max_size=4),
+            st.sampled_from([None, 0, 1, 2]),
+            st.booleans(),
+        ),
+        min_size=1,
+        max_size=4,
+    ),
+)
+def test_first_occurrence_is_the_smallest_tuple_of_positions(
+    sequences: list[list[int]], patterns: list[tuple[list[int], int | None, bool]]
+) -> None:
+    """Few distinct events and many repeats: the depth-first search must backtrack, and remember
+    the steps it could not complete, without missing or changing an occurrence."""
+    db = SequenceDatabase.from_sequences(sequences)
+    paths = [tuple(p) for p, _, _ in patterns]
+    gaps = [g for _, g, _ in patterns]
+    framed = [f for _, _, f in patterns]
+    which = np.repeat(np.arange(len(paths)), len(sequences))
+    sequence = np.tile(np.arange(len(sequences)), len(paths))
+    positions, after = first_occurrences(db, paths, max_gaps=gaps, framed=framed, which=which, sequence=sequence)
+    for r, (p, s) in enumerate(zip(which.tolist(), sequence.tolist(), strict=True)):
+        want = _smallest_occurrence(sequences[s], paths[p], gaps[p], framed[p])
+        k = len(paths[p])
+        if want is None:
+            assert positions[r].tolist() == [-1] * positions.shape[1] and after[r] == -1
+            continue
+        assert positions[r, :k].tolist() == want, (sequences[s], paths[p], gaps[p], framed[p])
+        following = want[-1] + 1
+        assert after[r] == (following if 1 <= following <= len(sequences[s]) else -1)
+
+
+def test_a_long_run_of_one_event_is_searched_once_per_position() -> None:
+    """Three hundred equal events and a pattern that cannot end: without remembering dead steps the
+    search would try every way to place five steps with gaps of up to four (hundreds of thousands of
+    placements per start); the answer is still that it does not occur, and the leftmost occurrence where it does."""
+    run = [2] * 300
+    db = SequenceDatabase.from_sequences([run, [*run, 3]])
+    positions, after = first_occurrences(
+        db,
+        [(2, 2, 2, 2, 2, 3)],
+        max_gaps=[4],
+        framed=[False],
+        which=np.array([0, 0]),
+        sequence=np.array([0, 1]),
+    )
+    assert positions[0].tolist() == [-1] * 6
+    # the 3 at 301 needs the fifth 2 at 296 or later, so the start at 276 or later, 5 apart at the least
+    assert positions[1].tolist() == [276, 281, 286, 291, 296, 301] and after[1] == -1
