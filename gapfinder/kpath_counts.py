@@ -597,5 +597,21 @@ def count_kpaths(
                     parts += [count_groups(*head, lo, hi, *tail) for lo, hi in batches]
                 else:
                     parts += list(pool.map(lambda batch, h=head: count_groups(*h, batch[0], batch[1], *tail), batches))
-    codes, occ, sess, usr = (np.concatenate([part[i] for part in parts]) for i in range(4))
-    return KpathCounts(codes.astype(_U64), occ.astype(_I64), sess.astype(_I64), usr.astype(_I64), bits, plain)
+    return KpathCounts(*_concatenated(parts), bits, plain)
+
+
+def _concatenated(parts: list[Any]) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """(codes, occurrences, sessions, users) of all parts in order, each part freed once copied: at
+    50M high-entropy events the 18.4M k-paths are 0.6 GB, and np.concatenate then astype held three
+    copies at once (the counter's peak, 3.66 GB)."""
+    total = sum(len(part[0]) for part in parts)
+    out = (np.empty(total, _U64), np.empty(total, _I64), np.empty(total, _I64), np.empty(total, _I64))
+    at = 0
+    while parts:
+        part = parts.pop(0)
+        size = len(part[0])
+        for column, values in zip(out, part, strict=True):
+            column[at : at + size] = values
+        at += size
+        del part
+    return out
