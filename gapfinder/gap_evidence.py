@@ -3,13 +3,15 @@
 For the candidates of ``gaps.find_gaps``, the sessions are read once, grouped per distinct path
 (``load_path_sessions``): by error positions, any error and half of the period (session counts);
 by user, with whether the user had a session there in the earlier half (distinct users); by segment
-value and user (segment sessions and users). ``gap_evidence`` then tries each candidate on the
+value (segment sessions). ``gap_evidence`` then tries each candidate on the
 distinct paths that hold its rarest event (``matching``), finds the occurrence that starts leftmost
 (``occurrences.first_occurrence``) and adds that path's groups to the candidate's sums: sessions,
 sessions with an error, in the recent half, with a failure on the occurrence, on each of its first
 seven steps and on the step right after it, the failure rate expected of the events that came
-next, and per segment value. Distinct users are counted with one marker per user (and per user and
-segment value) stamped with the candidate, so a user on several paths of a candidate counts once.
+next, and per segment value. Distinct users come from bit masks: each path gets a mask of the
+candidates it holds (at most 128 per call), DuckDB ORs them per user in one pass over the sessions,
+and the users of a candidate are the bit counts over the distinct masks, so a user on several paths
+of a candidate counts once, and the cost does not grow with the users of a path.
 
 Threads take candidates interleaved (the pool comes most common first) and each candidate's sums
 are added by one thread in path order, so results do not depend on the thread count. Results equal
@@ -18,18 +20,20 @@ those of joining every session to every candidate (tests/test_gap_evidence.py).
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 from typing import Any
 
 import duckdb
 import numba
 import numpy as np
+import pyarrow as pa
 from numba import njit
 
 from gapfinder.matching import EventIndex, candidate_sequences
 from gapfinder.mining import SequenceDatabase
 from gapfinder.occurrences import first_occurrence
-from gapfinder.sql import fetch_arrow, fetch_dicts, list_arrays
+from gapfinder.sql import fetch_arrow, fetch_dicts, list_arrays, registered
 
 __all__ = ["STEP_COLUMNS", "PathSessions", "gap_evidence", "load_path_sessions"]
 
@@ -37,6 +41,7 @@ STEP_COLUMNS = 7  # steps of a gap whose failures are counted one by one
 # Columns of the per-candidate counts the kernel adds up.
 _SESSIONS, _ERRORS, _RECENT, _OWN, _NEXT, _NEXT_ERRORS, _USERS, _EARLIER, _STEP = range(9)
 _COUNT_COLUMNS = _STEP + STEP_COLUMNS
+MAX_PATTERNS = 128  # patterns per call: two 64-bit words of mask per path
 CHUNKS_PER_THREAD = 2  # candidate chunks per thread (interleaved), to even out uneven candidates
 TILE_ITEMS = 1 << 17  # items of the sequences every pattern of a chunk reads before the next ones
 
@@ -52,16 +57,12 @@ class PathSessions:
     group_recent: np.ndarray
     error_ptr: np.ndarray  # error positions of group g: error_positions[error_ptr[g]:error_ptr[g + 1]]
     error_positions: np.ndarray
-    user_ptr: np.ndarray  # by user
-    user_no: np.ndarray
-    user_earlier: np.ndarray
-    user_count: int
-    value_ptr: np.ndarray  # by segment value and user
+    value_ptr: np.ndarray  # by segment value
     value_no: np.ndarray
-    value_user_no: np.ndarray  # the (user, value) pair, numbered densely
     value_n: np.ndarray
-    value_user_count: int
     values: list[tuple[str, str]]  # (segment, value) by value_no
+    midpoint: Any  # the start of the recent half
+    include_automated: bool
 
 
 def _pointers(path_ids: np.ndarray, row_paths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -93,12 +94,8 @@ def load_path_sessions(
         error_positions = error_positions[np.repeat(kept, np.diff(error_ptr))]
         error_ptr = np.zeros(len(lengths) + 1, dtype=np.int64)
         np.cumsum(lengths, out=error_ptr[1:])
-    users = fetch_arrow(con, "list_gap_path_users", midpoint=midpoint, include_automated=include_automated)
-    user_ptr, user_kept = _pointers(path_ids, _numpy(users, "path_id", np.int64))
-    user_no = _numpy(users, "user_no", np.int32)
-    valued = fetch_arrow(con, "list_gap_path_segment_users", include_automated=include_automated)
-    value_ptr, value_kept = _pointers(path_ids, _numpy(valued, "path_id", np.int64))
-    value_user_no = _numpy(valued, "value_user_no", np.int32)
+    by_value = fetch_arrow(con, "list_gap_path_segment_sessions", include_automated=include_automated)
+    value_ptr, value_kept = _pointers(path_ids, _numpy(by_value, "path_id", np.int64))
     values = [
         (str(r["segment"]), str(r["value"]))
         for r in fetch_dicts(con, "list_gap_segment_values", include_automated=include_automated)
@@ -110,16 +107,12 @@ def load_path_sessions(
         group_recent=_numpy(groups, "is_recent", np.bool_)[kept],
         error_ptr=np.ascontiguousarray(error_ptr, dtype=np.int64),
         error_positions=np.ascontiguousarray(error_positions, dtype=np.int32),
-        user_ptr=user_ptr,
-        user_no=user_no[user_kept],
-        user_earlier=_numpy(users, "is_earlier", np.bool_)[user_kept],
-        user_count=int(user_no.max()) + 1 if len(user_no) else 0,
         value_ptr=value_ptr,
-        value_no=_numpy(valued, "value_no", np.int32)[value_kept],
-        value_user_no=value_user_no[value_kept],
-        value_n=_numpy(valued, "n", np.int64)[value_kept],
-        value_user_count=int(value_user_no.max()) + 1 if len(value_user_no) else 0,
+        value_no=_numpy(by_value, "value_no", np.int32)[value_kept],
+        value_n=_numpy(by_value, "n", np.int64)[value_kept],
         values=values,
+        midpoint=midpoint,
+        include_automated=include_automated,
     )
 
 
@@ -157,7 +150,7 @@ def _session_kernel(  # pragma: no cover - compiled
     tile_items: int,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """(hit per candidate sequence, counts, expected-rate sum and sessions, next failures per event,
-    sessions per segment value), one row per pattern; users are counted by ``_user_kernel``.
+    sessions per segment value), one row per pattern; users are counted by ``_user_counts``.
 
     The sequences are taken a tile of about ``tile_items`` items at a time, every pattern of a
     chunk going through its candidates in the tile before the next tile: the tile's items and
@@ -246,56 +239,82 @@ def _session_kernel(  # pragma: no cover - compiled
     return hit, counts, rate_sum, rate_sessions, next_failures, value_sessions
 
 
-@njit(cache=True, nogil=True, parallel=True)
-def _user_kernel(  # pragma: no cover - compiled
-    hit: np.ndarray,
-    candidate_ptr: np.ndarray,
-    candidates: np.ndarray,
-    user_ptr: np.ndarray,
-    user_no: np.ndarray,
-    user_earlier: np.ndarray,
-    user_count: int,
-    value_ptr: np.ndarray,
-    value_no: np.ndarray,
-    value_user_no: np.ndarray,
-    value_count: int,
-    value_user_count: int,
-    counts: np.ndarray,
-    chunk_count: int,
-) -> np.ndarray:
-    """Distinct users (and users in the earlier half) per pattern into ``counts``, and the distinct
-    users per pattern and segment value (returned), over the sequences ``hit`` marks: one marker
-    per user (and per user and value) stamped with the pattern, so a user counts once."""
-    patterns = candidate_ptr.shape[0] - 1
-    value_users = np.zeros((patterns, value_count), dtype=np.int64)
-    chunk_count = max(1, min(chunk_count, patterns))
-    for c in numba.prange(chunk_count):
-        seen_user = np.zeros(user_count, dtype=np.int32)
-        seen_earlier = np.zeros(user_count, dtype=np.int32)
-        seen_value_user = np.zeros(value_user_count, dtype=np.int32)
-        for p in range(c, patterns, chunk_count):
-            stamp = p + 1
-            for t in range(candidate_ptr[p], candidate_ptr[p + 1]):
-                if not hit[t]:
-                    continue
-                s = candidates[t]
-                for u in range(user_ptr[s], user_ptr[s + 1]):
-                    user = user_no[u]
-                    if seen_user[user] != stamp:
-                        seen_user[user] = stamp
-                        counts[p, _USERS] += 1
-                    if user_earlier[u] and seen_earlier[user] != stamp:
-                        seen_earlier[user] = stamp
-                        counts[p, _EARLIER] += 1
-                for v in range(value_ptr[s], value_ptr[s + 1]):
-                    pair = value_user_no[v]
-                    if seen_value_user[pair] != stamp:
-                        seen_value_user[pair] = stamp
-                        value_users[p, value_no[v]] += 1
-    return value_users
+@njit(cache=True, nogil=True)
+def _path_masks(  # pragma: no cover - compiled
+    hit: np.ndarray, candidate_ptr: np.ndarray, candidates: np.ndarray, sequence_count: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """(low, high): each sequence's mask of the patterns (at most 128) that ``hit`` says it holds."""
+    low = np.zeros(sequence_count, dtype=np.uint64)
+    high = np.zeros(sequence_count, dtype=np.uint64)
+    for p in range(candidate_ptr.shape[0] - 1):
+        bit = np.uint64(1) << np.uint64(p % 64)
+        words = low if p < 64 else high
+        for t in range(candidate_ptr[p], candidate_ptr[p + 1]):
+            if hit[t]:
+                words[candidates[t]] |= bit
+    return low, high
+
+
+@njit(cache=True, nogil=True)
+def _bit_counts(low: np.ndarray, high: np.ndarray, weights: np.ndarray) -> np.ndarray:  # pragma: no cover
+    """Σ weights over the rows whose mask has bit b set, for b = 0..127 (low word first); one visit
+    per set bit (at 50M high-entropy events the masks are about as many as the users)."""
+    out = np.zeros(128, dtype=np.int64)
+    for r in range(low.shape[0]):
+        for word, base in ((low[r], 0), (high[r], 64)):
+            b = base
+            while word:
+                if word & np.uint64(1):
+                    out[b] += weights[r]
+                word >>= np.uint64(1)
+                b += 1
+    return out
+
+
+def _column(table: pa.Table, name: str) -> np.ndarray:
+    return table.column(name).to_numpy(zero_copy_only=False)
+
+
+def _user_counts(
+    con: duckdb.DuckDBPyConnection, db: SequenceDatabase, sessions: PathSessions, low: np.ndarray, high: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(distinct users, users in the earlier half, users per segment value) of each of at most 128
+    patterns, from the paths' masks: DuckDB ORs them per user in one pass over the sessions
+    (``list_gap_user_masks.sql``), and the users per pattern are the bit counts over the distinct
+    masks, weighted by how many users share each (the idea of the user signatures of
+    ``create_kpaths.sql``). A pass over the sessions costs the same for a few thousand paths with
+    millions of users (the demo) as for millions of paths with one user each."""
+    assert db.path_ids is not None
+    held = np.flatnonzero((low != 0) | (high != 0))
+    masks_frame = pa.table(
+        {
+            "path_id": pa.array(db.path_ids[held], pa.int64()),
+            "low": pa.array(low[held], pa.uint64()),
+            "high": pa.array(high[held], pa.uint64()),
+        }
+    )
+    automated = sessions.include_automated
+    with registered(con, gap_path_masks=masks_frame):
+        masks = fetch_arrow(con, "list_gap_user_masks", midpoint=sessions.midpoint, include_automated=automated)
+        by_value = fetch_arrow(con, "list_gap_segment_user_masks", include_automated=automated)
+    weights = _column(masks, "users")
+    users = _bit_counts(_column(masks, "low"), _column(masks, "high"), weights)
+    earlier = _bit_counts(_column(masks, "earlier_low"), _column(masks, "earlier_high"), weights)
+    value_users = np.zeros((128, len(sessions.values)), dtype=np.int64)
+    value_no = {value: v for v, value in enumerate(sessions.values)}
+    segments, values = _column(by_value, "segment"), _column(by_value, "value")
+    value_low, value_high, counts = _column(by_value, "low"), _column(by_value, "high"), _column(by_value, "users")
+    # rows come ordered by segment and value: cut them where either changes
+    changed = np.flatnonzero((segments[1:] != segments[:-1]) | (values[1:] != values[:-1])) + 1
+    bounds = [0, *changed.tolist(), len(segments)] if len(segments) else [0]
+    for lo, hi in itertools.pairwise(bounds):
+        v = value_no[(str(segments[lo]), str(values[lo]))]
+        value_users[:, v] = _bit_counts(value_low[lo:hi], value_high[lo:hi], counts[lo:hi])
+    return users, earlier, value_users
 
 
 def gap_evidence(
+    con: duckdb.DuckDBPyConnection,
     db: SequenceDatabase,
     sessions: PathSessions,
     patterns: list[tuple[int, ...]],
@@ -312,6 +331,8 @@ def gap_evidence(
     ``matching.event_index(db)``."""
     if not patterns or db.sequence_count == 0:
         return {}, [], np.zeros(0, np.int64), np.zeros(0, np.int64)
+    if len(patterns) > MAX_PATTERNS:
+        raise ValueError(f"at most {MAX_PATTERNS} patterns per call")
     lengths = np.array([len(p) for p in patterns], dtype=np.int64)
     if (lengths == 0).any():
         raise ValueError("patterns must have at least one event")
@@ -347,22 +368,10 @@ def gap_evidence(
         chunks,
         TILE_ITEMS,
     )
-    value_users = _user_kernel(
-        hit,
-        candidate_ptr,
-        candidates,
-        sessions.user_ptr,
-        sessions.user_no,
-        sessions.user_earlier,
-        sessions.user_count,
-        sessions.value_ptr,
-        sessions.value_no,
-        sessions.value_user_no,
-        len(sessions.values),
-        sessions.value_user_count,
-        counts,
-        chunks,
-    )
+    low, high = _path_masks(hit, candidate_ptr, candidates, db.sequence_count)
+    users, earlier, value_users = _user_counts(con, db, sessions, low, high)
+    counts[:, _USERS] = users[: len(patterns)]
+    counts[:, _EARLIER] = earlier[: len(patterns)]
     found = np.flatnonzero(hit)
     which = np.searchsorted(candidate_ptr, found, side="right") - 1
     evidence: dict[int, dict[str, Any]] = {}

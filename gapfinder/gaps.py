@@ -38,7 +38,7 @@ from gapfinder.coverage import (
 )
 from gapfinder.disclosure import kpath_parents
 from gapfinder.errors import ConfigError
-from gapfinder.gap_evidence import gap_evidence, load_path_sessions
+from gapfinder.gap_evidence import MAX_PATTERNS, gap_evidence, load_path_sessions
 from gapfinder.matching import containing_sequences, event_index
 from gapfinder.mining import use_python
 from gapfinder.paths import feature_names, hidden_full_path_ids
@@ -329,7 +329,7 @@ def fold_families(ranked: list[dict[str, Any]], top: int, sets: dict[int, Sessio
     return shown
 
 
-BLOCK_CANDIDATES = 128  # candidates whose evidence is added up at once (dense arrays per candidate)
+BLOCK_CANDIDATES = MAX_PATTERNS  # candidates whose evidence is added up at once (a 128-bit mask per path)
 PAIRS_PER_BLOCK = 16_000_000  # (candidate, path) pairs a block of gap evidence aims at
 
 
@@ -369,6 +369,7 @@ def _evidence_in_blocks(
     for lo, hi in _blocks(pool, db.sequence_count, int(db.weights.sum())):
         block = pool[lo:hi]
         found, segments, which, sequence = gap_evidence(
+            con,
             db,
             sessions,
             [c.path for c in block],

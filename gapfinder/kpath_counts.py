@@ -425,7 +425,7 @@ def _windows(  # pragma: no cover - compiled
 
 
 @njit(cache=True, nogil=True)
-def _counting_sort(keys: np.ndarray, key_count: int) -> np.ndarray:  # pragma: no cover - compiled
+def counting_sort(keys: np.ndarray, key_count: int) -> np.ndarray:  # pragma: no cover - compiled
     """The stable order of ``keys`` (each below key_count)."""
     counts = np.zeros(key_count + 1, dtype=np.int64)
     for key in keys:
@@ -458,7 +458,7 @@ _count_states_python = python_twin(_count_states)
 _count_groups_python = python_twin(_count_groups, grow, _rehash, _add_runs, _append)
 _pair_keys_python = python_twin(_pair_keys, _pair_key)
 _pair_counts_python = python_twin(_pair_counts, _pair_key)
-_counting_sort_python = python_twin(_counting_sort)
+_counting_sort_python = python_twin(counting_sort)
 _windows_python = python_twin(_windows, _pair_key)
 _unpack_python = python_twin(_unpack)
 
@@ -527,7 +527,7 @@ def _signatures_of_paths(
     of_entry = np.repeat(np.arange(len(signature_offsets) - 1, dtype=_I64), np.diff(signature_offsets))
     held = np.flatnonzero(signature_paths >= 0)
     paths = signature_paths[held]
-    sort = _counting_sort_python if kernel == "python" else _counting_sort
+    sort = _counting_sort_python if kernel == "python" else counting_sort
     order = sort(paths, path_count)
     offsets = np.zeros(path_count + 1, dtype=_I64)
     np.cumsum(np.bincount(paths, minlength=path_count), out=offsets[1:])

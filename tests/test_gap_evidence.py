@@ -103,8 +103,8 @@ def test_equals_the_join_of_every_session(
     real = gaps_module.gap_evidence
     recorded: dict[str, Any] = {}
 
-    def recording(db: Any, sessions: Any, patterns: Any, **kwargs: Any) -> Any:
-        result = real(db, sessions, patterns, **kwargs)
+    def recording(con: Any, db: Any, sessions: Any, patterns: Any, **kwargs: Any) -> Any:
+        result = real(con, db, sessions, patterns, **kwargs)
         calls.append((db, patterns, kwargs, result))
         return result
 
