@@ -68,19 +68,17 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
         run(con, "create_user_paths")
     counts = _count_runs(con, max_k=max_k, bits=bits, include_automated=include_automated)
     run(con, "drop_user_paths")
-    offsets, states = counts.paths()
     frame = pa.table(
         {
-            "k": pa.array((counts.codes >> np.uint64(60)).astype(np.int32)),
             "code": pa.array(counts.codes, type=pa.uint64()),
-            "path": pa.ListArray.from_arrays(pa.array(offsets.astype(np.int32)), pa.array(states)),
             "occurrences": pa.array(counts.occurrences),
             "sessions": pa.array(counts.sessions),
             "users": pa.array(counts.users),
         }
     )
+    del counts
     with registered(con, kpath_counts=frame):
-        run(con, "create_kpaths")
+        run(con, "create_kpaths", bits=bits)
 
 
 def _count_runs(con: duckdb.DuckDBPyConnection, *, max_k: int, bits: int, include_automated: bool) -> KpathCounts:
@@ -125,6 +123,7 @@ def hidden_kpath_codes(con: duckdb.DuckDBPyConnection, *, min_users: int) -> np.
         return codes
     primary = cells.column("users").to_numpy() < min_users
     occurrences = cells.column("occurrences").to_numpy()
+    del cells  # the users column is no longer needed (codes and occurrences keep their own buffers)
     counted = run(con, "count_features").fetchall()
     prefix, suffix = kpath_parents(codes, id_bits(int(counted[0][0]) if counted else 2))
     hidden = complementary_suppression(codes, occurrences, primary, [prefix, suffix])

@@ -277,7 +277,8 @@ def test_run_search_finds_what_searchsorted_finds(keys: list[int], queries: list
 
     sorted_keys = np.sort(np.array(keys, dtype=np.int64))
     q = np.array(queries, dtype=np.int64)
-    assert _search_runs(sorted_keys, q).tolist() == np.searchsorted(sorted_keys, q).tolist()
+    assert _search_runs(sorted_keys, q, np.empty(len(q), np.int64)).tolist() == np.searchsorted(sorted_keys, q).tolist()
+    assert _search_runs(sorted_keys, q, np.empty(len(q), np.int32)).tolist() == np.searchsorted(sorted_keys, q).tolist()
 
 
 def test_compiled_kpath_parents_equal_the_numpy_ones() -> None:
