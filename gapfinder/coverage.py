@@ -259,12 +259,26 @@ def _summary(mask: np.ndarray, occurrences: np.ndarray | None, sessions: np.ndar
     }
 
 
+def _rows_holding(codes: np.ndarray, wanted: np.ndarray) -> np.ndarray:
+    """np.isin(codes, wanted) for ``codes`` in ascending order (field items come in code order): the
+    few wanted codes are looked up in the many, not the other way round (np.isin sorted the 18.4M
+    k-path codes of 50M high-entropy events for a few thousand exercised ones: 2-3 s)."""
+    mask = np.zeros(len(codes), dtype=bool)
+    if len(codes) == 0 or len(wanted) == 0:
+        return mask
+    at = np.searchsorted(codes, wanted)
+    inside = at < len(codes)
+    at, wanted = at[inside], wanted[inside]
+    mask[at[codes[at] == wanted]] = True
+    return mask
+
+
 def _metric_masks(
     items: FieldItems, codes_by_test: list[np.ndarray], pattern_hits: np.ndarray
 ) -> dict[str, tuple[np.ndarray, np.ndarray]]:
     """{metric: (row selector over items, exercised mask over those rows)}; patterns separately."""
     every = np.unique(np.concatenate(codes_by_test)) if codes_by_test else np.zeros(0, np.uint64)
-    exercised = np.isin(items.code, every)
+    exercised = _rows_holding(items.code, every)
     selectors = {"features": items.k == 1, "transitions": items.k == 2, "kpaths": items.k >= 3}
     out = {m: (sel, exercised[sel]) for m, sel in selectors.items()}
     hit = pattern_hits.any(axis=0) if pattern_hits.size else np.zeros(len(items.patterns), bool)
@@ -279,7 +293,7 @@ def exercised_masks(tests: TestPaths, items: FieldItems, *, max_gap: int = 0) ->
     gap = items.pattern_gap if max_gap == 0 or items.pattern_gap is None else max(items.pattern_gap, max_gap)
     hits = _pattern_hits(tests, items, gap)
     pattern_mask = np.asarray(hits.any(axis=0) if hits.size else np.zeros(len(items.patterns), bool), dtype=bool)
-    kpath_mask: np.ndarray = np.isin(items.code, every)
+    kpath_mask = _rows_holding(items.code, every)
     return kpath_mask, pattern_mask
 
 
