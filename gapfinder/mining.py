@@ -206,9 +206,7 @@ def _scan(  # pragma: no cover - compiled
     lo: int,
     hi: int,
     is_root: bool,
-    items: np.ndarray,
-    starts: np.ndarray,
-    seq_of: np.ndarray,
+    cells: np.ndarray,
     weights: np.ndarray,
     max_gap: int,
     stamp: np.ndarray,
@@ -223,21 +221,25 @@ def _scan(  # pragma: no cover - compiled
 ) -> int:
     """One pass over a projection: count (or, when writing, emit) each child's entries.
 
+    ``cells[j]`` is (event, sequence) of position j, with a last row of (-1, -1): the event after
+    an entry and the sequence it belongs to sit side by side, so an entry costs one memory line,
+    and a sequence ends where the sequence number changes.
     Returns the visit counter after the pass (one visit per sequence, used to count a child once
     per sequence and to drop duplicate end positions).
     """
     current = -1
     gapped = max_gap >= 0
+    unbounded = cells.shape[0]
     for idx in range(lo, hi):
         e = arena[idx]
-        s = idx - lo if is_root else seq_of[e]
+        s = idx - lo if is_root else cells[e, 1]
         if s != current:
             visit += 1
             current = s
-        end = starts[s + 1]
-        stop = end if (is_root or not gapped) else min(end, e + 2 + max_gap)
-        for j in range(e + 1, stop):
-            x = items[j]
+        stop = unbounded if (is_root or not gapped) else e + 2 + max_gap
+        j = e + 1
+        while j < stop and cells[j, 1] == s:
+            x = cells[j, 0]
             if stamp[x] != visit:
                 stamp[x] = visit
                 last_pos[x] = j
@@ -256,6 +258,7 @@ def _scan(  # pragma: no cover - compiled
                         write_at[x] += 1
                 else:
                     entry_count[x] += 1
+            j += 1
     return visit
 
 
@@ -292,9 +295,8 @@ def _heap_push(heap: np.ndarray, size: int, value: int) -> int:  # pragma: no co
 
 @njit(cache=True, nogil=True)
 def _mine_kernel(  # pragma: no cover - compiled
-    items: np.ndarray,
+    cells: np.ndarray,
     starts: np.ndarray,
-    seq_of: np.ndarray,
     weights: np.ndarray,
     item_count: int,
     min_support: int,
@@ -319,7 +321,7 @@ def _mine_kernel(  # pragma: no cover - compiled
     seq_total = starts.shape[0] - 1
     depth_cap = max_length + 1
     width = depth_cap
-    arena = np.empty(max(1024, 2 * items.shape[0] + seq_total), dtype=np.int64)
+    arena = np.empty(max(1024, 2 * cells.shape[0] + seq_total), dtype=np.int64)
     top = 0
 
     child_item = np.empty((depth_cap, item_count), dtype=np.int64)
@@ -374,9 +376,7 @@ def _mine_kernel(  # pragma: no cover - compiled
                 expand_lo,
                 expand_hi,
                 expand_root,
-                items,
-                starts,
-                seq_of,
+                cells,
                 weights,
                 max_gap,
                 stamp,
@@ -436,9 +436,7 @@ def _mine_kernel(  # pragma: no cover - compiled
                     expand_lo,
                     expand_hi,
                     expand_root,
-                    items,
-                    starts,
-                    seq_of,
+                    cells,
                     weights,
                     max_gap,
                     stamp,
@@ -503,7 +501,7 @@ def _mine_kernel(  # pragma: no cover - compiled
                 node_no += 1
                 previous = -1
                 for idx in range(lo, hi):
-                    s = seq_of[arena[idx]]
+                    s = cells[arena[idx], 1]
                     if s == previous:
                         continue
                     previous = s
@@ -599,10 +597,13 @@ def use_python(engine: str, positions: int) -> bool:
     return engine == "python" or (engine == "auto" and positions <= PYTHON_ENGINE_MAX_POSITIONS)
 
 
-def sequence_of_position(db: SequenceDatabase) -> np.ndarray:
-    """The sequence number of each position of ``db.items``."""
-    lengths = np.diff(db.starts)
-    return np.repeat(np.arange(db.sequence_count, dtype=_I32), lengths)
+def position_cells(db: SequenceDatabase) -> np.ndarray:
+    """(event, sequence number) of each position of ``db.items``, and a last row of (-1, -1)."""
+    cells = np.empty((len(db.items) + 1, 2), dtype=_I32)
+    cells[:-1, 0] = db.items
+    cells[:-1, 1] = np.repeat(np.arange(db.sequence_count, dtype=_I32), np.diff(db.starts))
+    cells[-1] = -1
+    return cells
 
 
 PARALLEL_MIN_POSITIONS = 200_000  # events in distinct paths below which one thread mines alone
@@ -637,7 +638,7 @@ def _mine_compiled(
     ranges = _first_event_ranges(db, threads * FIRST_EVENT_RANGES_PER_THREAD)
     with ThreadPoolExecutor(max_workers=threads) as pool:
         parts = list(pool.map(lambda r: _mine_kernel(*[*arguments[:-2], r[0], r[1]]), ranges))
-    max_rows = int(arguments[11])
+    max_rows = int(arguments[10])
     stopped = any(part[5] for part in parts) or sum(int(part[4]) for part in parts) > max_rows
     return (
         np.concatenate([part[0] for part in parts]),
@@ -650,7 +651,7 @@ def _mine_compiled(
 
 def _run_kernel(
     db: SequenceDatabase,
-    seq_of: np.ndarray,
+    cells: np.ndarray,
     *,
     min_support: int,
     min_length: int,
@@ -666,9 +667,8 @@ def _run_kernel(
     user_ids = db.user_ids if has_users else np.zeros(1, dtype=_I32)
     user_count = int(user_ids.max()) + 1 if has_users else 0  # type: ignore[union-attr]
     arguments: list[Any] = [
-        np.ascontiguousarray(db.items, dtype=_I32),
+        cells,
         np.ascontiguousarray(db.starts, dtype=_I64),
-        seq_of,
         np.ascontiguousarray(db.weights, dtype=_I64),
         max(db.item_count, 1),
         min_support,
@@ -687,7 +687,7 @@ def _run_kernel(
     stopped = True
     if use_python(engine, len(db.items)):
         cap = max_rows if engine == "python" else min(max_rows, PYTHON_ENGINE_MAX_ROWS)
-        out_items, out_len, out_support, out_users, _rows, stopped = _mine_python(*arguments[:11], cap, *arguments[12:])
+        out_items, out_len, out_support, out_users, _rows, stopped = _mine_python(*arguments[:10], cap, *arguments[11:])
         if stopped and cap < max_rows:  # too much work for plain Python: let the compiled kernel finish it
             stopped = True
             engine = "compiled"
@@ -774,26 +774,26 @@ def mine_patterns(
     }
     if db.sequence_count == 0 or len(db.items) == 0:
         return _empty(parameters)
-    seq_of = sequence_of_position(db)
+    cells = position_cells(db)
     run: dict[str, Any] = dict(
         min_length=min_length, max_length=max_length, max_gap=gap, max_rows=max_patterns, engine=engine
     )
 
     if not closed:
         if top_k:
-            rows = _top_k_rows(db, seq_of, top_k=top_k, min_support=min_support, **run)
+            rows = _top_k_rows(db, cells, top_k=top_k, min_support=min_support, **run)
         else:
-            rows = _run_kernel(db, seq_of, min_support=min_support, top_k=0, check_closure=False, **run)
+            rows = _run_kernel(db, cells, min_support=min_support, top_k=0, check_closure=False, **run)
         result = _assemble(*rows, closed_flags=None, top_k=top_k)
     else:
         threshold = min_support
         if top_k:
             # The k-th support over all patterns bounds that of the k-th closed pattern from above;
             # lower the threshold until k closed patterns qualify.
-            first = _top_k_rows(db, seq_of, top_k=top_k, min_support=min_support, **run)
+            first = _top_k_rows(db, cells, top_k=top_k, min_support=min_support, **run)
             threshold = max(min_support, _kth_support(first[2], top_k))
         while True:
-            rows = _run_kernel(db, seq_of, min_support=threshold, top_k=0, check_closure=True, **run)
+            rows = _run_kernel(db, cells, min_support=threshold, top_k=0, check_closure=True, **run)
             closure = _closed_flags_python if use_python(engine, len(rows[1])) else _closed_flags
             flags = closure(rows[0], rows[1], rows[2])
             result = _assemble(*rows, closed_flags=flags, top_k=top_k)
@@ -806,7 +806,7 @@ def mine_patterns(
 
 def _top_k_rows(
     db: SequenceDatabase,
-    seq_of: np.ndarray,
+    cells: np.ndarray,
     *,
     top_k: int,
     min_support: int,
@@ -828,7 +828,7 @@ def _top_k_rows(
     for length in range(min_length, max_length + 1):
         rows = _run_kernel(
             db,
-            seq_of,
+            cells,
             min_support=seed,
             top_k=top_k,
             check_closure=False,
