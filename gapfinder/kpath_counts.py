@@ -32,7 +32,7 @@ from numba import njit
 
 from gapfinder.compiled import grow, python_twin
 
-__all__ = ["KpathCounts", "count_kpaths"]
+__all__ = ["KpathCounts", "count_framed_kpaths", "count_kpaths", "frame_paths"]
 
 _I32 = np.int32
 _I64 = np.int64
@@ -463,8 +463,11 @@ _windows_python = python_twin(_windows, _pair_key)
 _unpack_python = python_twin(_unpack)
 
 
-def _frame(offsets: np.ndarray, events: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """START + events + END for every path: (framed starts, framed states)."""
+def frame_paths(offsets: np.ndarray, events: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """START + events + END for every path (``events[offsets[i]:offsets[i + 1]]`` is path i):
+    (framed starts, framed states), the input of ``count_framed_kpaths``."""
+    offsets = np.asarray(offsets, dtype=_I64)
+    events = np.asarray(events, dtype=_I32)
     lengths = np.diff(offsets)
     starts = np.zeros(len(lengths) + 1, dtype=_I64)
     np.cumsum(lengths + 2, out=starts[1:])
@@ -564,10 +567,40 @@ def count_kpaths(
     ``signature_offsets``/``signature_paths``: each distinct set of paths one or more users took
     (indexes into the paths; -1 for a path outside them), ``signature_users`` how many users took
     it. k = 1 runs are the path's events (START and END are not features). Rows come k = 1 first,
-    then group by group; ``engine``: ``compiled``, ``python`` or ``auto`` (Python for small inputs)."""
+    then group by group; ``engine``: ``compiled``, ``python`` or ``auto`` (Python for small inputs).
+    A caller holding large path lists frames them with ``frame_paths``, lets the lists go and calls
+    ``count_framed_kpaths``."""
+    starts, framed = frame_paths(path_offsets, path_events)
+    return count_framed_kpaths(
+        starts,
+        framed,
+        path_sessions,
+        signature_offsets,
+        signature_paths,
+        signature_users,
+        max_k=max_k,
+        bits=bits,
+        threads=threads,
+        engine=engine,
+    )
+
+
+def count_framed_kpaths(
+    starts: np.ndarray,
+    framed: np.ndarray,
+    path_sessions: np.ndarray,
+    signature_offsets: np.ndarray,
+    signature_paths: np.ndarray,
+    signature_users: np.ndarray,
+    *,
+    max_k: int,
+    bits: int,
+    threads: int | None = None,
+    engine: str = "auto",
+) -> KpathCounts:
+    """``count_kpaths`` over paths ``frame_paths`` framed."""
     if engine not in ENGINES:
         raise ValueError(f"engine {engine!r}: give one of {', '.join(ENGINES)}")
-    starts, framed = _frame(np.asarray(path_offsets, dtype=_I64), np.asarray(path_events, dtype=_I32))
     sessions = np.asarray(path_sessions, dtype=_I64)
     signature = (
         np.asarray(signature_offsets, dtype=_I64),

@@ -18,9 +18,10 @@ import pyarrow as pa
 
 from gapfinder.disclosure import complementary_suppression, kpath_parents
 from gapfinder.errors import ConfigError
-from gapfinder.kpath_counts import KpathCounts, count_kpaths
+from gapfinder.kpath_counts import KpathCounts, count_framed_kpaths, frame_paths
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, list_arrays, registered, run
+from gapfinder.workspace import release_cached_memory
 
 __all__ = [
     "DEFAULT_MAX_K",
@@ -82,25 +83,28 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
 
 
 def _count_runs(con: duckdb.DuckDBPyConnection, *, max_k: int, bits: int, include_automated: bool) -> KpathCounts:
-    """The k-path counts over the distinct paths that count and the users' sets of them."""
+    """The k-path counts over the distinct paths that count and the users' sets of them.
+
+    Only the framed paths, the signatures and the counter's own arrays are held while it counts:
+    the path lists are dropped once framed and DuckDB's cache is handed back (100M high-entropy
+    events: the count's peak 4.94 → 4.26 GB, measured with the release alone)."""
     paths = fetch_arrow(con, "list_counted_full_paths")
-    signatures = fetch_arrow(con, "list_path_signatures", include_automated=include_automated)
-    path_lists = list_arrays(paths.column("path"))
     path_ids = paths.column("path_id").to_numpy()
-    signature_lists = list_arrays(signatures.column("signature"))
-    signature_path_ids = signature_lists[1].astype(np.int64)
+    sessions = paths.column("sessions").to_numpy()
+    starts, framed = frame_paths(*list_arrays(paths.column("path")))
+    del paths
+    signatures = fetch_arrow(con, "list_path_signatures", include_automated=include_automated)
+    signature_offsets, signature_path_ids = list_arrays(signatures.column("signature"))
+    user_counts = signatures.column("user_count").to_numpy()
+    del signatures
     top = int(max(path_ids.max(initial=0), signature_path_ids.max(initial=0)))
     index_of_id = np.full(top + 1, -1, dtype=np.int32)
     index_of_id[path_ids] = np.arange(len(path_ids), dtype=np.int32)
-    return count_kpaths(
-        path_lists[0],
-        path_lists[1],
-        paths.column("sessions").to_numpy(),
-        signature_lists[0],
-        index_of_id[signature_path_ids],
-        signatures.column("user_count").to_numpy(),
-        max_k=max_k,
-        bits=bits,
+    signature_paths = index_of_id[signature_path_ids]
+    del index_of_id, signature_path_ids
+    release_cached_memory(con)
+    return count_framed_kpaths(
+        starts, framed, sessions, signature_offsets, signature_paths, user_counts, max_k=max_k, bits=bits
     )
 
 

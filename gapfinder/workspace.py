@@ -255,18 +255,12 @@ class Workspace:
         self.con.close()
 
     def release_cached_memory(self) -> None:
-        """Let DuckDB hand back what its buffer pool keeps cached, before Python works on large arrays.
+        """Let DuckDB hand back what its buffer pool keeps cached (``release_cached_memory``).
 
-        Lowering the limit makes DuckDB evict every buffer it can (tables on disk are read again when
-        needed); the limit is then restored. Called before the k-path count and the summary of
-        `profile`, it took a 50M high-entropy profile's peak from 5.14 to 3.95 GB at no cost in time
-        (51.6 s; the count started at 0.52 GB instead of 2.01)."""
-        try:
-            self.con.execute("SET memory_limit = '64MiB'")
-        except duckdb.Error:  # pinned memory it cannot give back: keep what it has
-            pass
-        finally:
-            self.con.execute("SET memory_limit = $limit", {"limit": self.memory_limit})
+        Called before the k-path count, the summary of `profile` and gap ranking: it took a 50M
+        high-entropy profile's peak from 5.14 to 3.95 GB at no cost in time (51.6 s; the count
+        started at 0.52 GB instead of 2.01)."""
+        release_cached_memory(self.con, self.memory_limit)
 
     def __enter__(self) -> Workspace:
         return self
@@ -317,6 +311,20 @@ class Workspace:
         for leftover in (self.path, self.path.with_name(self.path.name + ".wal")):
             with contextlib.suppress(FileNotFoundError):
                 leftover.unlink()
+
+
+def release_cached_memory(con: duckdb.DuckDBPyConnection, memory_limit: str | None = None) -> None:
+    """Let DuckDB hand back what its buffer pool keeps cached, before Python works on large arrays.
+
+    Lowering the limit makes DuckDB evict every buffer it can (tables on disk are read again when
+    needed); the limit is then restored (``memory_limit``, or the one in force)."""
+    limit = memory_limit or first_row(run(con, "read_memory_limit"))[0]
+    try:
+        con.execute("SET memory_limit = '64MiB'")
+    except duckdb.Error:  # pinned memory it cannot give back: keep what it has
+        pass
+    finally:
+        con.execute("SET memory_limit = $limit", {"limit": limit})
 
 
 @contextlib.contextmanager
