@@ -35,7 +35,15 @@ from gapfinder.mining import SequenceDatabase
 from gapfinder.occurrences import first_occurrence
 from gapfinder.sql import fetch_arrow, fetch_dicts, list_arrays, registered
 
-__all__ = ["STEP_COLUMNS", "PathSessions", "gap_evidence", "load_path_sessions"]
+__all__ = [
+    "STEP_COLUMNS",
+    "PathSessions",
+    "bit_weights",
+    "gap_evidence",
+    "load_path_sessions",
+    "mask_pairs",
+    "masked_sequences",
+]
 
 STEP_COLUMNS = 7  # steps of a gap whose failures are counted one by one
 # Columns of the per-candidate counts the kernel adds up.
@@ -256,7 +264,7 @@ def _path_masks(  # pragma: no cover - compiled
 
 
 @njit(cache=True, nogil=True)
-def _bit_counts(low: np.ndarray, high: np.ndarray, weights: np.ndarray) -> np.ndarray:  # pragma: no cover
+def bit_weights(low: np.ndarray, high: np.ndarray, weights: np.ndarray) -> np.ndarray:  # pragma: no cover
     """Σ weights over the rows whose mask has bit b set, for b = 0..127 (low word first); one visit
     per set bit (at 50M high-entropy events the masks are about as many as the users)."""
     out = np.zeros(128, dtype=np.int64)
@@ -269,6 +277,28 @@ def _bit_counts(low: np.ndarray, high: np.ndarray, weights: np.ndarray) -> np.nd
                 word >>= np.uint64(1)
                 b += 1
     return out
+
+
+def mask_pairs(low: np.ndarray, high: np.ndarray, count: int) -> tuple[np.ndarray, np.ndarray]:
+    """(pattern, sequence) pairs of the masks ``gap_evidence`` returns for ``count`` patterns,
+    pattern by pattern, sequences ascending (as ``containing_sequences`` lists them)."""
+    which, sequence = [], []
+    for p in range(count):
+        held = masked_sequences(low, high, p)
+        which.append(np.full(len(held), p, dtype=np.int64))
+        sequence.append(held)
+    if not which:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    return np.concatenate(which), np.concatenate(sequence)
+
+
+def masked_sequences(low: np.ndarray | None, high: np.ndarray | None, p: int) -> np.ndarray:
+    """The sequences (ascending) whose mask has pattern p's bit (see ``gap_evidence``); a word array
+    may be None when no pattern of it was asked, and of any unsigned width that holds its bits."""
+    words = low if p < 64 else high
+    if words is None:
+        return np.zeros(0, np.int64)
+    return np.flatnonzero(words & words.dtype.type(1 << (p % 64)))
 
 
 def _column(table: pa.Table, name: str) -> np.ndarray:
@@ -298,8 +328,8 @@ def _user_counts(
         masks = fetch_arrow(con, "list_gap_user_masks", midpoint=sessions.midpoint, include_automated=automated)
         by_value = fetch_arrow(con, "list_gap_segment_user_masks", include_automated=automated)
     weights = _column(masks, "users")
-    users = _bit_counts(_column(masks, "low"), _column(masks, "high"), weights)
-    earlier = _bit_counts(_column(masks, "earlier_low"), _column(masks, "earlier_high"), weights)
+    users = bit_weights(_column(masks, "low"), _column(masks, "high"), weights)
+    earlier = bit_weights(_column(masks, "earlier_low"), _column(masks, "earlier_high"), weights)
     value_users = np.zeros((128, len(sessions.values)), dtype=np.int64)
     value_no = {value: v for v, value in enumerate(sessions.values)}
     segments, values = _column(by_value, "segment"), _column(by_value, "value")
@@ -309,7 +339,7 @@ def _user_counts(
     bounds = [0, *changed.tolist(), len(segments)] if len(segments) else [0]
     for lo, hi in itertools.pairwise(bounds):
         v = value_no[(str(segments[lo]), str(values[lo]))]
-        value_users[:, v] = _bit_counts(value_low[lo:hi], value_high[lo:hi], counts[lo:hi])
+        value_users[:, v] = bit_weights(value_low[lo:hi], value_high[lo:hi], counts[lo:hi])
     return users, earlier, value_users
 
 
@@ -325,12 +355,15 @@ def gap_evidence(
     index: EventIndex,
 ) -> tuple[dict[int, dict[str, Any]], list[dict[str, Any]], np.ndarray, np.ndarray]:
     """(evidence per pattern that some counted session holds, segment rows per pattern and value,
-    and the (pattern, sequence) pairs that contain each pattern, as ``containing_sequences`` gives).
+    and the sequences that contain each pattern as two words of bits per sequence, pattern p being bit
+    p % 64 of the first word (p < 64) or the second: the pairs ``containing_sequences`` gives, in
+    16 bytes a sequence however many patterns hold it; ``mask_pairs`` lists them).
 
     ``event_rate[e]``: the failure rate of event e anywhere (NaN when unknown); ``index``:
     ``matching.event_index(db)``."""
     if not patterns or db.sequence_count == 0:
-        return {}, [], np.zeros(0, np.int64), np.zeros(0, np.int64)
+        empty = np.zeros(db.sequence_count, dtype=np.uint64)
+        return {}, [], empty, empty.copy()
     if len(patterns) > MAX_PATTERNS:
         raise ValueError(f"at most {MAX_PATTERNS} patterns per call")
     lengths = np.array([len(p) for p in patterns], dtype=np.int64)
@@ -372,8 +405,6 @@ def gap_evidence(
     users, earlier, value_users = _user_counts(con, db, sessions, low, high)
     counts[:, _USERS] = users[: len(patterns)]
     counts[:, _EARLIER] = earlier[: len(patterns)]
-    found = np.flatnonzero(hit)
-    which = np.searchsorted(candidate_ptr, found, side="right") - 1
     evidence: dict[int, dict[str, Any]] = {}
     for p in np.flatnonzero(counts[:, _SESSIONS] > 0).tolist():
         row = counts[p]
@@ -403,4 +434,4 @@ def gap_evidence(
         }
         for p, v in zip(*np.nonzero(value_sessions), strict=True)
     ]
-    return evidence, segment_rows, which, candidates[found]
+    return evidence, segment_rows, low, high

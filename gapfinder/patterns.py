@@ -271,9 +271,10 @@ def _one_row_per_journey(
     con: duckdb.DuckDBPyConnection, rows: list[dict[str, Any]], max_gap: int | None, limit: int | None
 ) -> list[dict[str, Any]]:
     """Listed patterns folded into journey families by their session sets, as the gap listing does."""
-    from gapfinder.gaps import fold_families, session_sets
+    from gapfinder.gaps import fold_families
     from gapfinder.matching import containing_sequences
     from gapfinder.paths import feature_names
+    from gapfinder.session_sets import session_sets
 
     names = feature_names(con)
     ids = {name: i for i, name in enumerate(names)}

@@ -12,6 +12,7 @@ import pytest
 
 import gapfinder.gap_evidence as gap_evidence_module
 import gapfinder.gaps as gaps_module
+from gapfinder.gap_evidence import mask_pairs
 from gapfinder.gaps import GapOptions, find_gaps
 from gapfinder.matching import containing_sequences
 from gapfinder.occurrences import first_occurrences
@@ -129,7 +130,8 @@ def test_equals_the_join_of_every_session(
         )
         params = {"midpoint": recorded["midpoint"], "include_automated": recorded["include_automated"]}
         automated = {"include_automated": recorded["include_automated"]}
-        for db, patterns, kwargs, (evidence, segments, which, sequence) in calls:
+        for db, patterns, kwargs, (evidence, segments, low, high) in calls:
+            which, sequence = mask_pairs(low, high, len(patterns))
             frame = _occurrence_frame(db, patterns, kwargs)
             want_which, want_sequence = containing_sequences(
                 db, patterns, max_gaps=kwargs["max_gaps"], framed=kwargs["framed"]

@@ -7,7 +7,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from gapfinder.gaps import fold_families, session_jaccard
+from gapfinder.gaps import fold_families
+from gapfinder.session_sets import session_jaccard
 
 paths = st.lists(st.integers(2, 6), min_size=1, max_size=4).map(tuple)
 session_sets = st.sets(st.integers(0, 40), min_size=1, max_size=25)

@@ -124,7 +124,7 @@ def _sets_of_listed(ws_path: Path, gaps: list[dict]) -> list[tuple]:
 
 
 def test_no_two_listed_gaps_share_more_than_half_their_sessions(demo_gaps: dict, suite_workspace: Path) -> None:
-    from gapfinder.gaps import session_jaccard
+    from gapfinder.session_sets import session_jaccard
 
     sets = _sets_of_listed(suite_workspace, demo_gaps["gaps"])
     for i in range(len(sets)):
@@ -195,7 +195,7 @@ def test_session_sets_are_the_same_from_ordered_or_shuffled_pairs() -> None:
     """The matcher's order (candidate, then path ascending) skips the sort; any other order sorts."""
     import numpy as np
 
-    from gapfinder.gaps import session_sets
+    from gapfinder.session_sets import session_sets
 
     rng = np.random.default_rng(1)
     pairs = sorted(set(zip(rng.integers(0, 20, 800).tolist(), rng.integers(0, 90, 800).tolist(), strict=True)))
@@ -208,6 +208,44 @@ def test_session_sets_are_the_same_from_ordered_or_shuffled_pairs() -> None:
     for n in range(20):
         assert ordered[n][0].tolist() == shuffled[n][0].tolist() == sorted(b for a, b in pairs if a == n)
         assert ordered[n][1].tolist() == shuffled[n][1].tolist()
+
+
+def test_masked_session_sets_list_the_pairs_of_every_block() -> None:
+    """Session sets kept as the evidence blocks' masks (8-, 64- and 128-candidate blocks, narrowed to
+    the bits they use) list the same paths and weights as the (candidate, path) pairs they stand for."""
+    import numpy as np
+
+    from gapfinder.gap_evidence import mask_pairs
+    from gapfinder.session_sets import MaskedSessionSets
+
+    rng = np.random.default_rng(1)
+    paths = 300
+    weights = rng.integers(1, 5, paths)
+    sizes = [8, 64, 128, 3]
+    sets = MaskedSessionSets(weights, sum(sizes))
+    expected: dict[int, list[int]] = {}
+    first = 0
+    for size in sizes:
+        held = rng.random((size, paths)) < 0.2
+        low = np.zeros(paths, dtype=np.uint64)
+        high = np.zeros(paths, dtype=np.uint64)
+        for p in range(size):
+            words = low if p < 64 else high
+            words[held[p]] |= np.uint64(1) << np.uint64(p % 64)
+            expected[first + p] = np.flatnonzero(held[p]).tolist()
+        which, sequence = mask_pairs(low, high, size)
+        assert sorted(zip(which.tolist(), sequence.tolist(), strict=True)) == sorted(
+            (p, s) for p in range(size) for s in expected[first + p]
+        )
+        sets.add_block(first, size, low, high)
+        first += size
+    assert len(sets) == first and list(sets) == list(range(first))
+    for n in range(first):
+        ids, got_weights = sets[n]
+        assert ids.tolist() == expected[n]
+        assert got_weights.tolist() == weights[ids].tolist()
+    with pytest.raises(KeyError):
+        sets[first]
 
 
 def test_evidence_in_blocks_of_any_size_equals_one_block(
