@@ -190,14 +190,20 @@ def load_field_items(ws: Workspace) -> FieldItems:
     con = ws.con
     bits = id_bits(len(feature_names(con)))
     table = fetch_arrow(con, "list_kpath_items")
-    code = table.column("code").to_numpy().astype(np.uint64, copy=False)
-    k = (code >> np.uint64(60)).astype(np.int64)
+    arrays: dict[str, np.ndarray] = {}
+    for name, dtype in (("code", np.uint64), ("occurrences", np.int64), ("sessions", np.int64), ("users", np.int64)):
+        arrays[name] = table.column(name).to_numpy().astype(dtype, copy=False)
+        # the column's Arrow buffers go now, so only one column is ever held twice (100M high-entropy
+        # events: 30M k-paths, 0.96 GB of Arrow beside 0.96 GB of arrays when dropped at the end)
+        table = table.drop_columns([name])
+    del table
+    k = (arrays["code"] >> np.uint64(60)).astype(np.int8)  # k <= 15: a byte a row
     items = FieldItems(
         k=k,
-        code=code,
-        occurrences=table.column("occurrences").to_numpy().astype(np.int64, copy=False),
-        sessions=table.column("sessions").to_numpy().astype(np.int64, copy=False),
-        users=table.column("users").to_numpy().astype(np.int64, copy=False),
+        code=arrays["code"],
+        occurrences=arrays["occurrences"],
+        sessions=arrays["sessions"],
+        users=arrays["users"],
         bits=bits,
         max_k=int(k.max()) if len(k) else 2,
     )
