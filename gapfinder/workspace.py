@@ -302,6 +302,18 @@ class Workspace:
                 self.con.execute("ROLLBACK")
             raise
 
+    def extend_recorded_run(self, record: StageRecord) -> None:
+        """Record the stage's wall time up to now: for read-only work done after its writes were
+        committed (profile's summary reads the k-paths once DuckDB may move them out of memory)."""
+        _, clock = record.began
+        run(
+            self.con,
+            "update_run_finish",
+            stage=record.stage,
+            finished_at=datetime.now(UTC),
+            seconds=round(time.perf_counter() - clock, 3),
+        )
+
     def discard_if_new(self) -> None:
         """Remove a workspace file this process created, after a failure left it without results."""
         if not self.is_new:
