@@ -55,6 +55,7 @@ __all__ = [
 
 DEFAULT_MAX_PATTERNS = 2_000_000
 MAX_LENGTH = 64
+MAX_POSITIONS = 2**31 - 2  # events in distinct paths: projections hold positions in 4 bytes
 
 _I64 = np.int64
 _I32 = np.int32
@@ -336,7 +337,8 @@ def _mine_kernel(  # pragma: no cover - compiled
     seq_total = starts.shape[0] - 1
     depth_cap = max_length + 1
     width = depth_cap
-    arena = np.empty(max(1024, 2 * cells.shape[0] + seq_total), dtype=np.int64)
+    # positions fit in 4 bytes (mine_patterns refuses more than MAX_POSITIONS events)
+    arena = np.empty(max(1024, 2 * cells.shape[0] + seq_total), dtype=np.int32)
     # the sequence of each arena entry, side by side: counting a pattern's users reads them in
     # order instead of looking each entry's sequence up in ``cells`` (a cache miss per entry)
     arena_seq = np.empty(arena.shape[0], dtype=np.int32)
@@ -813,6 +815,11 @@ def mine_patterns(
     }
     if db.sequence_count == 0 or len(db.items) == 0:
         return _empty(parameters)
+    if len(db.items) > MAX_POSITIONS:
+        raise ConfigError(
+            f"{len(db.items):,} events in distinct session paths: the miner takes at most {MAX_POSITIONS:,}; "
+            "mine a period or a sample of the sessions"
+        )
     cells = position_cells(db)
     run: dict[str, Any] = dict(
         min_length=min_length, max_length=max_length, max_gap=gap, max_rows=max_patterns, engine=engine

@@ -294,3 +294,16 @@ def test_event_index_lists_each_events_sequences_once_in_order(db: list[list[int
         bounds, sequences = index(data.items.astype(np.int32), data.starts.astype(np.int64), top)
         for e in range(top):
             assert sequences[bounds[e] : bounds[e + 1]].tolist() == [s for s, seq in enumerate(db) if e in seq]
+
+
+def test_more_positions_than_the_arena_holds_is_a_clear_error(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Projections hold positions in 4 bytes: past MAX_POSITIONS events the miner refuses, naming the
+    limit, instead of writing wrapped positions."""
+    import gapfinder.mining as mining_module
+
+    db = SequenceDatabase.from_sequences([[2, 3, 4], [2, 4, 5]])
+    monkeypatch.setattr(mining_module, "MAX_POSITIONS", 5)
+    with pytest.raises(ConfigError, match="at most 5"):
+        mine_patterns(db, min_support=1)
+    monkeypatch.setattr(mining_module, "MAX_POSITIONS", 6)
+    assert len(mine_patterns(db, min_support=2)) > 0
