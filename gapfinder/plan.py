@@ -243,24 +243,37 @@ def _greedy(
 
 def _objective_items(
     items: FieldItems, objective: str, framed_paths: list[list[int]]
-) -> tuple[list[set[int]], dict[int, float]]:
-    """For each framed path, the objective's items it exercises (as ids), and each item's weight."""
+) -> tuple[list[set[int]], dict[int, float], float]:
+    """For each framed path, the objective's items it exercises (as ids); the weight of each item
+    some path exercises; and the objective's total weight over every field item.
+
+    k-path items are found by binary search in the field items' sorted codes, and weights are kept
+    only for the items the paths exercise: a dict over every k-path took tens of millions of
+    entries at 100M events."""
     if objective == "patterns":
         weights = {i: float(s) for i, s in enumerate(items.pattern_sessions.tolist())}
         gap = items.pattern_gap
         sets = [{i for i, p in enumerate(items.patterns) if occurs_in(p, framed, gap)} for framed in framed_paths]
-        return sets, weights
+        return sets, weights, sum(weights.values())
     keep = items.k == 2 if objective == "transitions" else items.k >= 2
     rows = np.flatnonzero(keep)
-    index = {int(c): int(r) for r, c in zip(rows.tolist(), items.code[rows].tolist(), strict=True)}
-    weights = {r: float(items.occurrences[r]) for r in rows.tolist()}
+    kept_codes = items.code[rows]  # ascending: the field items come in code order
     sets = []
     for framed in framed_paths:
-        codes = exercised_codes(
-            framed, max_k=2 if objective == "transitions" else items.max_k, max_gap=0, bits=items.bits
+        codes = np.array(
+            sorted(
+                exercised_codes(
+                    framed, max_k=2 if objective == "transitions" else items.max_k, max_gap=0, bits=items.bits
+                )
+            ),
+            dtype=np.uint64,
         )
-        sets.append({index[c] for c in codes if c in index})
-    return sets, weights
+        at = np.minimum(np.searchsorted(kept_codes, codes), max(len(kept_codes) - 1, 0))
+        found = kept_codes[at] == codes if len(kept_codes) else np.zeros(len(codes), dtype=bool)
+        sets.append(set(rows[at[found]].tolist()))
+    used = sorted(set().union(*sets)) if sets else []
+    weights = {r: float(items.occurrences[r]) for r in used}
+    return sets, weights, float(items.occurrences[rows].sum())
 
 
 def plan_gap_options(options: PlanOptions) -> GapOptions:
@@ -313,10 +326,9 @@ def make_plan(
         seen[key] = scenario
         scenarios.append(scenario)
     framed = [[0, *(ids[s] for s in sc["steps"]), 1] for sc in scenarios]
-    sets, weights = _objective_items(items, options.objective, framed)
-    suite_sets, _ = _objective_items(items, options.objective, tests.framed)
+    sets, weights, objective_total = _objective_items(items, options.objective, framed)
+    suite_sets, _, _ = _objective_items(items, options.objective, tests.framed)
     covered = set().union(*suite_sets) if suite_sets else set()
-    objective_total = sum(weights.values())
     costs = None if options.cost == "tests" else [float(len(sc["steps"])) for sc in scenarios]
     selection = greedy_max_coverage(sets, weights, options.budget, costs=costs, covered=covered)
 
@@ -412,10 +424,9 @@ def _sampled_plan(
     sampled = sample_walks(model, options.sample, seed=options.seed)
     distinct = [(list(walk), drawn) for walk, drawn in sampled.distinct() if walk]
     framed = [[0, *(ids[s] for s in walk), 1] for walk, _ in distinct]
-    sets, weights = _objective_items(items, options.objective, framed)
-    suite_sets, _ = _objective_items(items, options.objective, tests.framed)
+    sets, weights, objective_total = _objective_items(items, options.objective, framed)
+    suite_sets, _, _ = _objective_items(items, options.objective, tests.framed)
     covered = set().union(*suite_sets) if suite_sets else set()
-    objective_total = sum(weights.values())
     rows, total_gain = [], 0.0
     for n, ((walk, drawn), exercised) in enumerate(zip(distinct, sets, strict=True), start=1):
         new = exercised - covered
