@@ -548,41 +548,11 @@ def _batches(group_bounds: np.ndarray, batch_count: int) -> list[tuple[int, int]
     return [(int(a), int(b)) for a, b in itertools.pairwise(edges) if b > a]
 
 
-def count_kpaths(
-    path_offsets: np.ndarray,
-    path_events: np.ndarray,
-    path_sessions: np.ndarray,
-    signature_offsets: np.ndarray,
-    signature_paths: np.ndarray,
-    signature_users: np.ndarray,
-    *,
-    max_k: int,
-    bits: int,
-    threads: int | None = None,
-    engine: str = "auto",
-) -> KpathCounts:
-    """Runs of 1..max_k states over paths framed by START (0) and END (1).
-
-    ``path_offsets``/``path_events``: each path's event ids (2 and up), ``path_sessions`` its weight.
-    ``signature_offsets``/``signature_paths``: each distinct set of paths one or more users took
-    (indexes into the paths; -1 for a path outside them), ``signature_users`` how many users took
-    it. k = 1 runs are the path's events (START and END are not features). Rows come k = 1 first,
-    then group by group; ``engine``: ``compiled``, ``python`` or ``auto`` (Python for small inputs).
-    A caller holding large path lists frames them with ``frame_paths``, lets the lists go and calls
-    ``count_framed_kpaths``."""
-    starts, framed = frame_paths(path_offsets, path_events)
-    return count_framed_kpaths(
-        starts,
-        framed,
-        path_sessions,
-        signature_offsets,
-        signature_paths,
-        signature_users,
-        max_k=max_k,
-        bits=bits,
-        threads=threads,
-        engine=engine,
-    )
+def count_kpaths(path_offsets: np.ndarray, path_events: np.ndarray, *rest: np.ndarray, **options: Any) -> KpathCounts:
+    """``count_framed_kpaths`` over paths given as lists: ``path_events[path_offsets[i]:path_offsets[i + 1]]``
+    are path i's event ids (2 and up). A caller holding large path lists frames them with
+    ``frame_paths``, lets the lists go and calls ``count_framed_kpaths`` itself."""
+    return count_framed_kpaths(*frame_paths(path_offsets, path_events), *rest, **options)
 
 
 def count_framed_kpaths(
@@ -598,7 +568,13 @@ def count_framed_kpaths(
     threads: int | None = None,
     engine: str = "auto",
 ) -> KpathCounts:
-    """``count_kpaths`` over paths ``frame_paths`` framed."""
+    """Runs of 1..max_k states over paths framed by START (0) and END (1) (``frame_paths``).
+
+    ``path_sessions``: each path's weight. ``signature_offsets``/``signature_paths``: each distinct
+    set of paths one or more users took (indexes into the paths; -1 for a path outside them),
+    ``signature_users`` how many users took it. k = 1 runs are the path's events (START and END are
+    not features). Rows come k = 1 first, then group by group; ``engine``: ``compiled``, ``python``
+    or ``auto`` (Python for small inputs)."""
     if engine not in ENGINES:
         raise ValueError(f"engine {engine!r}: give one of {', '.join(ENGINES)}")
     sessions = np.asarray(path_sessions, dtype=_I64)
