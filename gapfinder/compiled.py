@@ -34,12 +34,23 @@ def grow(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cover - c
 
 def python_twin(kernel: Any, *helpers: Any) -> Callable[..., Any]:
     """``kernel`` as plain Python, calling the plain versions of ``helpers`` (the compiled functions
-    it calls, by their names in its module)."""
-    module_globals = dict(kernel.py_func.__globals__)
-    # Helpers are rebuilt over the same swapped globals, so a helper calling another helper stays plain.
-    for h in helpers:
-        module_globals[h.py_func.__name__] = types.FunctionType(h.py_func.__code__, module_globals, h.py_func.__name__)
-    plain = types.FunctionType(kernel.py_func.__code__, module_globals, kernel.py_func.__name__)
+    it calls, directly or through one another, from its module or others, under any name)."""
+    namespaces: dict[str, dict[str, Any]] = {}  # a copy of each module's globals, by module
+
+    def plain_of(compiled: Any) -> types.FunctionType:
+        function = compiled.py_func
+        namespace = namespaces.setdefault(function.__module__, dict(function.__globals__))
+        return types.FunctionType(
+            function.__code__, namespace, function.__name__, function.__defaults__, function.__closure__
+        )
+
+    plain_by_id = {id(h): plain_of(h) for h in helpers}
+    plain = plain_of(kernel)
+    # a helper is found by identity, so one made by a factory (a closure) or imported under another name is swapped too
+    for namespace in namespaces.values():
+        for name, value in list(namespace.items()):
+            if id(value) in plain_by_id:
+                namespace[name] = plain_by_id[id(value)]
 
     def twin(*args: Any) -> Any:
         with np.errstate(over="ignore"):  # 64-bit hashes wrap around, as they do when compiled

@@ -30,7 +30,7 @@ import numpy as np
 import pyarrow as pa
 from numba import njit
 
-from gapfinder.matching import EventIndex, candidate_sequences
+from gapfinder.matching import EventIndex, candidate_sequences, occurs, quick_scan_handles, set_steps, step_table_size
 from gapfinder.mining import SequenceDatabase
 from gapfinder.occurrences import first_occurrence
 from gapfinder.sql import fetch_arrow, fetch_dicts, list_arrays, registered
@@ -156,6 +156,7 @@ def _session_kernel(  # pragma: no cover - compiled
     event_rate: np.ndarray,
     chunk_count: int,
     tile_items: int,
+    state_count: int,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """(hit per candidate sequence, counts, expected-rate sum and sessions, next failures per event,
     sessions per segment value), one row per pattern; users are counted by ``_user_counts``.
@@ -179,6 +180,7 @@ def _session_kernel(  # pragma: no cover - compiled
     value_sessions = np.zeros((patterns, value_count), dtype=np.int64)
     chunk_count = max(1, min(chunk_count, patterns))
     for c in numba.prange(chunk_count):
+        step_mask = np.zeros(state_count, dtype=np.uint64)
         cur = np.zeros(width, dtype=np.int64)
         nxt = np.zeros(width, dtype=np.int64)
         positions = np.zeros(width, dtype=np.int64)
@@ -196,10 +198,15 @@ def _session_kernel(  # pragma: no cover - compiled
                 gap = pattern_gaps[p]
                 is_framed = framed[p]
                 t = cursor[p]
+                quick = quick_scan_handles(k, gap)
+                if quick:
+                    set_steps(step_mask, pattern_items, a, b, True)
                 while t < candidate_ptr[p + 1] and candidates[t] < tile_end:
                     s = candidates[t]
                     t += 1
                     lo, hi = starts[s], starts[s + 1]
+                    if quick and not occurs(items, lo, hi, k, gap, is_framed, step_mask):
+                        continue  # most candidates: the search below only runs where the pattern is
                     tried += 1
                     if not first_occurrence(items, lo, hi, pattern_items, a, b, gap, is_framed, cur, nxt, dead, tried):
                         continue
@@ -243,6 +250,8 @@ def _session_kernel(  # pragma: no cover - compiled
                     for v in range(value_ptr[s], value_ptr[s + 1]):
                         value_sessions[p, value_no[v]] += value_n[v]
                 cursor[p] = t
+                if quick:
+                    set_steps(step_mask, pattern_items, a, b, False)
             tile_start = tile_end
     return hit, counts, rate_sum, rate_sessions, next_failures, value_sessions
 
@@ -400,6 +409,7 @@ def gap_evidence(
         rates,
         chunks,
         TILE_ITEMS,
+        step_table_size(db, flat),
     )
     low, high = _path_masks(hit, candidate_ptr, candidates, db.sequence_count)
     users, earlier, value_users = _user_counts(con, db, sessions, low, high)

