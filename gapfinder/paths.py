@@ -69,14 +69,7 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
         run(con, "create_user_paths")
     counts = _count_runs(con, max_k=max_k, bits=bits, include_automated=include_automated)
     run(con, "drop_user_paths")
-    frame = pa.table(
-        {
-            "code": pa.array(counts.codes, type=pa.uint64()),
-            "occurrences": pa.array(counts.occurrences),
-            "sessions": pa.array(counts.sessions),
-            "users": pa.array(counts.users),
-        }
-    )
+    frame = counts.table()
     del counts
     with registered(con, kpath_counts=frame):
         run(con, "create_kpaths", bits=bits)
