@@ -28,6 +28,7 @@ from typing import Any
 
 import numpy as np
 import pyarrow as pa
+from numba import njit
 
 from gapfinder.coverage import (
     FieldItems,
@@ -232,15 +233,44 @@ class _FamilyTest:
                 self.masks[n] = mask
         return self.masks[n]
 
-    def __call__(self, gap: int, lead: int) -> bool:
+    def _close_in_size(self, gap: int, lead: int) -> bool:
         total_gap, total_lead = self.total(gap), self.total(lead)
-        if min(total_gap, total_lead) <= FAMILY_JACCARD * max(total_gap, total_lead):
+        return min(total_gap, total_lead) > FAMILY_JACCARD * max(total_gap, total_lead)
+
+    def _one_journey(self, gap: int, lead: int, shared: int) -> bool:
+        union = self.total(gap) + self.total(lead) - shared
+        return union > 0 and shared / union > FAMILY_JACCARD
+
+    def __call__(self, gap: int, lead: int) -> bool:
+        if not self._close_in_size(gap, lead):
             return False
         lead_mask = self.mask(lead)
         ids, weights = self.session_set(gap)
-        shared = int(weights[lead_mask[ids]].sum())
-        union = total_gap + total_lead - shared
-        return union > 0 and shared / union > FAMILY_JACCARD
+        return self._one_journey(gap, lead, _weight_held(ids, weights, lead_mask))
+
+    def union_total(self, members: list[int]) -> int:
+        """The sessions of the paths in any of the sets ``members`` (a path counted once)."""
+        seen = np.zeros(self.size, dtype=bool)
+        if self.masked is not None:
+            for n in members:
+                seen |= self.masked.holds(n)
+            return int(self.masked.weights[seen].sum())
+        total = 0
+        for n in members:
+            ids, weights = self.sets[n]
+            total += int(weights[~seen[ids]].sum())
+            seen[ids] = True
+        return total
+
+
+@njit(cache=True, nogil=True)
+def _weight_held(ids: np.ndarray, weights: np.ndarray, mask: np.ndarray) -> int:  # pragma: no cover - compiled
+    """Σ weights[i] over the i where mask[ids[i]]: one pass, no temporary arrays."""
+    total = 0
+    for i in range(ids.shape[0]):
+        if mask[ids[i]]:
+            total += weights[i]
+    return total
 
 
 def _lead(members: list[dict[str, Any]]) -> dict[str, Any]:
@@ -303,14 +333,7 @@ def fold_families(
     for members, lead in zip(families[:top], leads[:top], strict=False):
         entry = {k: v for k, v in lead.items() if not k.startswith("_")}
         entry["score"] = members[0]["score"]
-        seen = np.zeros(one_journey.size, dtype=bool)
-        family_sessions = 0
-        for member in members:  # a path weighs the same in every set: count it once
-            ids, weights = sets[member["_index"]]
-            new = ~seen[ids]
-            family_sessions += int(weights[new].sum())
-            seen[ids] = True
-        entry["family_sessions"] = family_sessions
+        entry["family_sessions"] = one_journey.union_total([member["_index"] for member in members])
         entry["folded"] = [
             {"kind": m["kind"], "path": m["path"], "sessions": m["sessions"]} for m in members if m is not lead
         ]
