@@ -10,8 +10,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from gapfinder import mining
 from gapfinder.errors import ConfigError
-from gapfinder.mining import SequenceDatabase, mine_patterns, resolve_min_support
+from gapfinder.mining import REPLAY_ENTRIES, SequenceDatabase, mine_patterns, resolve_min_support
 
 
 def brute_force(
@@ -57,16 +58,29 @@ sequences = st.lists(st.lists(st.integers(0, 3), max_size=7), min_size=1, max_si
     min_support=st.integers(1, 4),
     max_length=st.integers(1, 5),
     max_gap=st.sampled_from([None, 0, 1, 2]),
+    replay_entries=st.sampled_from([0, 3, REPLAY_ENTRIES]),
 )
 def test_frequent_and_closed_equal_brute_force(
-    engine: str, db: list[list[int]], data: st.DataObject, min_support: int, max_length: int, max_gap: int | None
+    engine: str,
+    db: list[list[int]],
+    data: st.DataObject,
+    min_support: int,
+    max_length: int,
+    max_gap: int | None,
+    replay_entries: int,
 ) -> None:
+    """Also with no room (every writing pass scans again) or room for a few entries (some nodes
+    replay what their counting pass kept, some scan again)."""
     weights = data.draw(st.lists(st.integers(1, 3), min_size=len(db), max_size=len(db)))
     database = SequenceDatabase.from_sequences(db, weights)
     options = {"min_support": min_support, "max_length": max_length, "max_gap": max_gap, "engine": engine}
-    found = mine_patterns(database, **options)
+    try:
+        mining.REPLAY_ENTRIES = replay_entries
+        found = mine_patterns(database, **options)
+        closed = mine_patterns(database, closed=True, **options)
+    finally:
+        mining.REPLAY_ENTRIES = REPLAY_ENTRIES
     assert found.as_dict() == brute_force(db, weights, min_support, max_length, max_gap)
-    closed = mine_patterns(database, closed=True, **options)
     assert closed.as_dict() == brute_force_closed(db, weights, min_support, max_length, max_gap)
 
 
