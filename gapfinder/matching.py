@@ -6,8 +6,9 @@ A sequence contains a pattern when the pattern's events occur in it in order, wi
 framed sequence is read as START (0) → events → END (1). Candidates come from an inverted index
 (only the sequences holding a pattern's rarest event can contain it), and (pattern, candidate)
 pairs are tested in a compiled kernel on all threads (numba ``prange`` over equal chunks, each pair
-writing its own flag, so the result does not depend on the thread count). Small inputs run the
-kernel's own code as plain Python (``gapfinder.compiled.python_twin``).
+writing its own flag, so the result does not depend on the thread count): by a bit-parallel scan
+(``occurs``) where the gap bound is small or absent, by a sweep over reachable positions otherwise.
+Small inputs run the kernel's own code as plain Python (``gapfinder.compiled.python_twin``).
 """
 
 from __future__ import annotations
