@@ -30,7 +30,17 @@ import numpy as np
 import pyarrow as pa
 from numba import njit
 
-from gapfinder.matching import EventIndex, candidate_sequences, occurs, quick_scan_handles, set_steps, step_table_size
+from gapfinder.matching import (
+    EventIndex,
+    candidate_sequences,
+    has_pairs,
+    occurs,
+    pair_signatures,
+    quick_scan_handles,
+    set_steps,
+    signature_needs,
+    step_table_size,
+)
 from gapfinder.mining import SequenceDatabase
 from gapfinder.occurrences import first_occurrence
 from gapfinder.sql import fetch_arrow, fetch_dicts, list_arrays, registered
@@ -157,6 +167,8 @@ def _session_kernel(  # pragma: no cover - compiled
     chunk_count: int,
     tile_items: int,
     state_count: int,
+    signatures: np.ndarray,
+    needs: np.ndarray,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """(hit per candidate sequence, counts, expected-rate sum and sessions, next failures per event,
     sessions per segment value), one row per pattern; users are counted by ``_user_counts``.
@@ -205,6 +217,8 @@ def _session_kernel(  # pragma: no cover - compiled
                     s = candidates[t]
                     t += 1
                     lo, hi = starts[s], starts[s + 1]
+                    if not has_pairs(signatures, s, needs, p):
+                        continue  # about half the candidates at 50M high-entropy events
                     if quick and not occurs(items, lo, hi, k, gap, is_framed, step_mask):
                         continue  # most candidates: the search below only runs where the pattern is
                     tried += 1
@@ -379,6 +393,7 @@ def gap_evidence(
     framed: list[bool],
     event_rate: np.ndarray,
     index: EventIndex,
+    signatures: np.ndarray | None = None,
 ) -> tuple[dict[int, dict[str, Any]], list[dict[str, Any]], np.ndarray, np.ndarray]:
     """(evidence per pattern that some counted session holds, segment rows per pattern and value,
     and the sequences that contain each pattern as two words of bits per sequence, pattern p being bit
@@ -386,7 +401,8 @@ def gap_evidence(
     16 bytes a sequence however many patterns hold it; ``mask_pairs`` lists them).
 
     ``event_rate[e]``: the failure rate of event e anywhere (NaN when unknown); ``index``:
-    ``matching.event_index(db)``."""
+    ``matching.event_index(db)``; ``signatures``: ``matching.pair_signatures(db)`` (made here when
+    not given: a caller with several blocks makes them once)."""
     if not patterns or db.sequence_count == 0:
         empty = np.zeros(db.sequence_count, dtype=np.uint64)
         return {}, [], empty, empty.copy()
@@ -427,6 +443,8 @@ def gap_evidence(
         chunks,
         TILE_ITEMS,
         step_table_size(db, flat),
+        pair_signatures(db) if signatures is None else signatures,
+        signature_needs(flat, pattern_starts, gaps),
     )
     low, high = _path_masks(hit, candidate_ptr, candidates, db.sequence_count)
     users, earlier, value_users = _user_counts(con, db, sessions, low, high)

@@ -41,7 +41,7 @@ from gapfinder.coverage import (
 from gapfinder.disclosure import kpath_parents
 from gapfinder.errors import ConfigError
 from gapfinder.gap_evidence import MAX_PATTERNS, gap_evidence, load_path_sessions
-from gapfinder.matching import containing_sequences, event_index
+from gapfinder.matching import containing_sequences, event_index, pair_signatures
 from gapfinder.mining import use_python
 from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated
@@ -378,6 +378,7 @@ def _evidence_in_blocks(
     sets = MaskedSessionSets(db.weights, len(pool))
     sessions = load_path_sessions(con, db, midpoint=midpoint, include_automated=include_automated)
     index = event_index(db, plain=use_python("auto", len(db.items)))  # once for every block
+    signatures = pair_signatures(db)
     for lo, hi in _blocks(pool, db.sequence_count, int(db.weights.sum())):
         block = pool[lo:hi]
         found, segments, low, high = gap_evidence(
@@ -389,6 +390,7 @@ def _evidence_in_blocks(
             framed=[c.framed for c in block],
             event_rate=event_rate,
             index=index,
+            signatures=signatures,
         )
         evidence.update({c + lo: {**ev, "candidate": c + lo} for c, ev in found.items()})
         segment_rows.extend({**r, "candidate": int(r["candidate"]) + lo} for r in segments)

@@ -82,3 +82,37 @@ def test_a_long_run_of_one_event_is_searched_once_per_position() -> None:
     assert positions[0].tolist() == [-1] * 6
     # the 3 at 301 needs the fifth 2 at 296 or later, so the start at 276 or later, 5 apart at the least
     assert positions[1].tolist() == [276, 281, 286, 291, 296, 301] and after[1] == -1
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    sequence=st.lists(st.integers(2, 6), min_size=1, max_size=12),
+    pattern=st.lists(st.integers(2, 6), min_size=1, max_size=4),
+    gap=st.sampled_from([0, 1, 2, 3]),
+)
+def test_a_path_holding_a_pattern_has_its_pair_signature(sequence: list[int], pattern: list[int], gap: int) -> None:
+    """The signature test only rules out: wherever the pattern occurs (by enumeration), the path's
+    signature holds every bit the pattern needs; and a pattern of one step needs none."""
+    from gapfinder.matching import has_pairs, pair_signatures, signature_needs
+
+    db = SequenceDatabase.from_sequences([sequence])
+    needs = signature_needs(
+        np.array(pattern, dtype=np.int32), np.array([0, len(pattern)], dtype=np.int64), np.array([gap], dtype=np.int64)
+    )
+    if len(pattern) == 1:
+        assert not needs.any()
+    if _smallest_occurrence(sequence, tuple(pattern), gap, framed=False) is not None:
+        assert has_pairs(pair_signatures(db), 0, needs, 0)
+
+
+def test_a_missing_pair_rules_a_path_out() -> None:
+    """Events 2 then 3 never within four positions of each other: the pattern 2 → 3 (gap 3) is ruled
+    out by the signature, unless another pair happens to share its bit."""
+    from gapfinder.matching import _pair_bit, has_pairs, pair_signatures, signature_needs
+
+    sequence = [2, 4, 4, 4, 4, 3]
+    db = SequenceDatabase.from_sequences([sequence])
+    needs = signature_needs(np.array([2, 3], dtype=np.int32), np.array([0, 2], dtype=np.int64), np.array([3]))
+    held = {_pair_bit(a, b) for i, a in enumerate(sequence) for b in sequence[i + 1 : i + 5]}
+    assert _pair_bit(2, 3) not in held  # the hash keeps this pair apart from the path's pairs
+    assert not has_pairs(pair_signatures(db), 0, needs, 0)
