@@ -122,15 +122,46 @@ def _frontier(items: FieldItems, exercised: np.ndarray) -> np.ndarray:
     looked up in the few exercised codes by binary search (np.isin sorted all 18.4M codes of 50M
     high-entropy events together with them: 5.7 s)."""
     unexercised = (items.k >= 3) & ~exercised
-    known = np.sort(items.code[exercised])
+    known = np.unique(items.code[exercised])
     if len(known) == 0 or not unexercised.any():
         return unexercised & False
     prefix, suffix = kpath_parents(items.code, items.bits)
+    return _parents_known(prefix, suffix, unexercised, known)
 
-    def is_known(codes: np.ndarray) -> np.ndarray:
-        return known[np.minimum(np.searchsorted(known, codes), len(known) - 1)] == codes
 
-    return unexercised & is_known(prefix) & is_known(suffix)
+_PHI = np.uint64(0x9E3779B97F4A7C15)  # 2**64 / golden ratio: Fibonacci hashing
+
+
+@njit(cache=True, nogil=True)
+def _parents_known(  # pragma: no cover - compiled
+    prefix: np.ndarray, suffix: np.ndarray, rows: np.ndarray, known: np.ndarray
+) -> np.ndarray:
+    """Whether each of ``rows`` has both parents among the ``known`` codes (distinct, never 0),
+    looked up in a hash table of them: one pass, where a binary search per parent and its
+    temporaries took 1.06 s over the 18.4M k-paths of 50M high-entropy events."""
+    bits = 1
+    while (1 << bits) < 2 * known.shape[0]:
+        bits += 1
+    mask = (1 << bits) - 1
+    shift = np.uint64(64 - bits)
+    table = np.zeros(1 << bits, dtype=np.uint64)
+    for code in known:
+        h = np.int64((code * _PHI) >> shift)
+        while table[h] != 0:
+            h = (h + 1) & mask
+        table[h] = code
+    out = np.zeros(rows.shape[0], dtype=np.bool_)
+    for i in range(rows.shape[0]):
+        if not rows[i]:
+            continue
+        both = True
+        for code in (prefix[i], suffix[i]):
+            h = np.int64((code * _PHI) >> shift)
+            while table[h] != 0 and table[h] != code:
+                h = (h + 1) & mask
+            both = both and table[h] == code
+        out[i] = both
+    return out
 
 
 def _candidates(
