@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 
 from gapfinder.errors import ConfigError
+from gapfinder.kpath_counts import in_code_order
 from gapfinder.matching import containing_sequences
 from gapfinder.mining import SequenceDatabase
 from gapfinder.paths import feature_names, id_bits
@@ -197,6 +198,7 @@ def load_field_items(ws: Workspace) -> FieldItems:
         # events: 30M k-paths, 0.96 GB of Arrow beside 0.96 GB of arrays when dropped at the end)
         table = table.drop_columns([name])
     del table
+    arrays = dict(zip(arrays, in_code_order(*arrays.values()), strict=True))  # the code column first
     k = (arrays["code"] >> np.uint64(60)).astype(np.int8)  # k <= 15: a byte a row
     items = FieldItems(
         k=k,

@@ -34,7 +34,7 @@ from numba import njit
 
 from gapfinder.compiled import grow, python_twin
 
-__all__ = ["KpathCounts", "count_framed_kpaths", "count_kpaths", "frame_paths"]
+__all__ = ["KpathCounts", "count_framed_kpaths", "count_kpaths", "frame_paths", "in_code_order"]
 
 _I32 = np.int32
 _I64 = np.int64
@@ -58,9 +58,9 @@ _Part = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]  # codes, occurren
 class KpathCounts:
     """One row per distinct run: packed code, occurrences, sessions and distinct users.
 
-    The rows are held as the counter's parts (k = 1, then group by group); ``table`` hands them to
-    Arrow as they are, and the columns are joined into one array each only when asked for (at 50M
-    high-entropy events joining the 18.4M rows took 1.3 s)."""
+    Rows come in code order (k, then the states), held as slices of the counter's parts; ``table``
+    hands them to Arrow as they are, and the columns are joined into one array each only when asked
+    for (at 50M high-entropy events joining the 18.4M rows took 1.3 s)."""
 
     parts: list[_Part]
     bits: int
@@ -241,11 +241,40 @@ def _append(  # pragma: no cover - compiled
     users: np.ndarray,
     distinct: int,
 ) -> None:
-    """Copy a group's first ``distinct`` runs to the output at ``total`` (the output has room)."""
-    out_codes[total : total + distinct] = codes[:distinct]
-    out_occurrences[total : total + distinct] = occurrences[:distinct]
-    out_sessions[total : total + distinct] = sessions[:distinct]
-    out_users[total : total + distinct] = users[:distinct]
+    """Copy a group's first ``distinct`` runs to the output at ``total`` (the output has room), in
+    code order."""
+    order = np.argsort(codes[:distinct])
+    for i in range(distinct):
+        run = order[i]
+        out_codes[total + i] = codes[run]
+        out_occurrences[total + i] = occurrences[run]
+        out_sessions[total + i] = sessions[run]
+        out_users[total + i] = users[run]
+
+
+@njit(cache=True, nogil=True)
+def _by_length(  # pragma: no cover - compiled
+    codes: np.ndarray, occurrences: np.ndarray, sessions: np.ndarray, users: np.ndarray, max_k: int
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The rows stably sorted by k (a counting sort), and where each k starts (``bounds[k]``).
+    Groups come in order of their first two states and each group's rows in code order, so for
+    each k the rows end up in code order."""
+    bounds = np.zeros(max_k + 2, dtype=np.int64)
+    for code in codes:
+        bounds[np.int64(code >> np.uint64(60)) + 1] += 1
+    for length in range(max_k + 1):
+        bounds[length + 1] += bounds[length]
+    fill = bounds[:-1].copy()
+    out = (np.empty_like(codes), np.empty_like(occurrences), np.empty_like(sessions), np.empty_like(users))
+    for i in range(codes.shape[0]):
+        k = np.int64(codes[i] >> np.uint64(60))
+        at = fill[k]
+        fill[k] += 1
+        out[0][at] = codes[i]
+        out[1][at] = occurrences[i]
+        out[2][at] = sessions[i]
+        out[3][at] = users[i]
+    return out[0], out[1], out[2], out[3], bounds
 
 
 @njit(cache=True, nogil=True)
@@ -265,15 +294,15 @@ def _count_groups(  # pragma: no cover - compiled
     path_signatures: np.ndarray,
     max_k: int,
     bits: int,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Runs of k = 2..max_k starting at the windows of groups first_group..last_group - 1.
 
     ``windows`` holds, for every position that opens a run of two or more states, the states from
     there (``window_lengths`` of them, at most max_k, packed) and ``window_paths`` its path; they are
     sorted by their first two states, then path, then position, and a group holds whole pairs of
     first states, so a run is met in one group only and the kernel reads its input in order.
-    Returns codes, occurrences, sessions and users of the distinct runs, group by group in order of
-    first sight."""
+    Returns codes, occurrences, sessions and users of the distinct runs, sorted by k and, for each
+    k, in code order, with where each k starts (see ``_by_length``)."""
     path_count = path_sessions.shape[0]
     signature_count = signature_starts.shape[0] - 1
     path_group = np.full(path_count, -1, dtype=np.int64)  # the last group that met the path
@@ -383,12 +412,7 @@ def _count_groups(  # pragma: no cover - compiled
             out_codes, out_occurrences, out_sessions, out_users, total, codes, occurrences, sessions, users, distinct
         )
         total += distinct
-    return (
-        out_codes[:total].copy(),
-        out_occurrences[:total].copy(),
-        out_sessions[:total].copy(),
-        out_users[:total].copy(),
-    )
+    return _by_length(out_codes[:total], out_occurrences[:total], out_sessions[:total], out_users[:total], max_k)
 
 
 @njit(cache=True, nogil=True)
@@ -493,12 +517,22 @@ def _unpack(codes: np.ndarray, bits: int) -> tuple[np.ndarray, np.ndarray]:  # p
 
 
 _count_states_python = python_twin(_count_states)
-_count_groups_python = python_twin(_count_groups, grow, _rehash, _add_runs, _append)
+_count_groups_python = python_twin(_count_groups, grow, _rehash, _add_runs, _append, _by_length)
 _pair_keys_python = python_twin(_pair_keys, _pair_key)
 _pair_counts_python = python_twin(_pair_counts, _pair_key)
 _counting_sort_python = python_twin(counting_sort)
 _windows_python = python_twin(_windows, _pair_key)
 _unpack_python = python_twin(_unpack)
+
+
+def in_code_order(codes: np.ndarray, *columns: np.ndarray) -> tuple[np.ndarray, ...]:
+    """(codes, *columns) in ascending code order: as given when they already are (the order in which
+    ``count_framed_kpaths`` gives them and ``kpaths`` stores them; one pass to check), else sorted
+    (a workspace written otherwise)."""
+    if len(codes) < 2 or bool((codes[1:] > codes[:-1]).all()):
+        return (codes, *columns)
+    order = np.argsort(codes, kind="stable")
+    return (codes[order], *(column[order] for column in columns))
 
 
 def frame_paths(offsets: np.ndarray, events: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -611,7 +645,7 @@ def count_framed_kpaths(
     ``path_sessions``: each path's weight. ``signature_offsets``/``signature_paths``: each distinct
     set of paths one or more users took (indexes into the paths; -1 for a path outside them),
     ``signature_users`` how many users took it. k = 1 runs are the path's events (START and END are
-    not features). Rows come k = 1 first, then group by group; ``engine``: ``compiled``, ``python``
+    not features). Rows come in code order; ``engine``: ``compiled``, ``python``
     or ``auto`` (Python for small inputs)."""
     if engine not in ENGINES:
         raise ValueError(f"engine {engine!r}: give one of {', '.join(ENGINES)}")
@@ -635,8 +669,11 @@ def count_framed_kpaths(
             parts += _count_longer_runs(pool, workers, starts, framed, sessions, signature, max_k, bits, kernel)
         occurrences, state_sessions, users = states.result()
     seen = np.flatnonzero(occurrences)
-    parts.insert(0, ((_U64(1) << _U64(60)) | seen.astype(_U64), occurrences[seen], state_sessions[seen], users[seen]))
-    return KpathCounts([part for part in parts if len(part[0])], bits, plain)
+    chunks = [((_U64(1) << _U64(60)) | seen.astype(_U64), occurrences[seen], state_sessions[seen], users[seen])]
+    # k by k, the parts' rows of that k in part order: every code in ascending order
+    for k in range(2, max_k + 1):
+        chunks += [tuple(column[bounds[k] : bounds[k + 1]] for column in part) for *part, bounds in parts]
+    return KpathCounts([chunk for chunk in chunks if len(chunk[0])], bits, plain)
 
 
 def _count_longer_runs(

@@ -18,7 +18,7 @@ import pyarrow as pa
 
 from gapfinder.disclosure import complementary_suppression, kpath_parents
 from gapfinder.errors import ConfigError
-from gapfinder.kpath_counts import KpathCounts, count_framed_kpaths, frame_paths
+from gapfinder.kpath_counts import KpathCounts, count_framed_kpaths, frame_paths, in_code_order
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, list_arrays, registered, run
 from gapfinder.workspace import release_cached_memory
@@ -121,6 +121,7 @@ def hidden_kpath_codes(con: duckdb.DuckDBPyConnection, *, min_users: int) -> np.
     primary = cells.column("users").to_numpy() < min_users
     occurrences = cells.column("occurrences").to_numpy()
     del cells  # the users column is no longer needed (codes and occurrences keep their own buffers)
+    codes, occurrences, primary = in_code_order(codes, occurrences, primary)
     counted = run(con, "count_features").fetchall()
     prefix, suffix = kpath_parents(codes, id_bits(int(counted[0][0]) if counted else 2))
     hidden = complementary_suppression(codes, occurrences, primary, [prefix, suffix])

@@ -81,6 +81,9 @@ def kernel_counts(
         for c, o, s, u in zip(counts.codes, counts.occurrences, counts.sessions, counts.users, strict=True)
     }
     assert len(got) == len(counts), "a run came out twice"
+    assert bool((counts.codes[1:] > counts.codes[:-1]).all()), "rows come in code order"
+    table_codes = counts.table().column("code").to_numpy()
+    assert bool((table_codes[1:] > table_codes[:-1]).all()), "rows come in code order, in the table too"
     return got
 
 
@@ -158,3 +161,34 @@ def test_unknown_engine_is_refused() -> None:
         count_kpaths(
             np.zeros(1), np.zeros(0), np.zeros(0), np.zeros(1), np.zeros(0), np.zeros(0), max_k=3, bits=2, engine="gpu"
         )
+
+
+def test_in_code_order_keeps_sorted_rows_and_sorts_others() -> None:
+    from gapfinder.kpath_counts import in_code_order
+
+    codes = np.array([5, 9, 12], dtype=np.uint64)
+    values = np.array([1, 2, 3])
+    same = in_code_order(codes, values)
+    assert same[0] is codes and same[1] is values  # already in order: no copy
+    shuffled = in_code_order(codes[[2, 0, 1]], values[[2, 0, 1]])
+    assert shuffled[0].tolist() == [5, 9, 12] and shuffled[1].tolist() == [1, 2, 3]
+
+
+def test_a_large_count_comes_out_in_code_order_across_rounds_and_batches(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Several rounds of windows and several batches of groups on two threads: k by k, the parts
+    are laid end to end, and every code still comes after the one before."""
+    import gapfinder.kpath_counts as kc
+
+    monkeypatch.setattr(kc, "ROUND_POSITIONS", 1 << 10)
+    monkeypatch.setattr(kc, "GROUP_RUNS", 1 << 8)
+    rng = np.random.default_rng(3)
+    lengths = rng.integers(1, 12, size=2_000)
+    events = rng.integers(2, 40, size=int(lengths.sum())).astype(np.int32)
+    offsets = np.concatenate([[0], np.cumsum(lengths)])
+    paths = np.arange(len(lengths))
+    counts = kc.count_kpaths(
+        offsets, events, np.ones(len(lengths)), np.arange(len(lengths) + 1), paths, np.ones(len(lengths)),
+        max_k=5, bits=6, engine="compiled", threads=2,
+    )  # fmt: skip
+    assert len(counts) > 20_000
+    assert bool((counts.codes[1:] > counts.codes[:-1]).all())
