@@ -671,8 +671,10 @@ def position_cells(db: SequenceDatabase) -> np.ndarray:
 PARALLEL_MIN_POSITIONS = 200_000  # events in distinct paths below which one thread mines alone
 # Ranges of first events per thread: each range scans the whole database once for its first events
 # (the root), so more ranges even out the work but repeat that scan (50M high-entropy mining, 2 cores:
-# 32 ranges a thread 33-34 s, 8: 25-28 s, 4: 24-26 s, 2: 22.9-23.3 s; the same patterns).
-FIRST_EVENT_RANGES_PER_THREAD = 2
+# 32 ranges a thread 33-34 s, 8: 25-28 s, 4: 24-26 s, 2: 22.9-23.3 s; the same patterns); fewer,
+# larger ranges hold larger root projections at once (100M: 2 a thread 53.4 s / 3.51 GB, 3 a thread
+# 52.7 s / 3.15 GB; at 50M 2 and 3 took the same time).
+FIRST_EVENT_RANGES_PER_THREAD = 3
 
 
 def _first_event_ranges(db: SequenceDatabase, range_count: int) -> list[tuple[int, int]]:
