@@ -16,7 +16,11 @@ from typing import Any
 import numpy as np
 from numba import njit
 
-__all__ = ["grow", "python_twin"]
+__all__ = ["FIBONACCI", "grow", "python_twin"]
+
+# Fibonacci hashing (common practice; Knuth, TAOCP vol. 3, 6.4, cited from memory): the top bits of
+# key * 2**64 / golden ratio spread keys over a power-of-two table.
+FIBONACCI = np.uint64(0x9E3779B97F4A7C15)
 
 
 @njit(cache=True, nogil=True)

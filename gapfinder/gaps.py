@@ -30,6 +30,7 @@ import numpy as np
 import pyarrow as pa
 from numba import njit
 
+from gapfinder.compiled import FIBONACCI
 from gapfinder.coverage import (
     FieldItems,
     TestPaths,
@@ -129,9 +130,6 @@ def _frontier(items: FieldItems, exercised: np.ndarray) -> np.ndarray:
     return _parents_known(prefix, suffix, unexercised, known)
 
 
-_PHI = np.uint64(0x9E3779B97F4A7C15)  # 2**64 / golden ratio: Fibonacci hashing
-
-
 @njit(cache=True, nogil=True)
 def _parents_known(  # pragma: no cover - compiled
     prefix: np.ndarray, suffix: np.ndarray, rows: np.ndarray, known: np.ndarray
@@ -146,7 +144,7 @@ def _parents_known(  # pragma: no cover - compiled
     shift = np.uint64(64 - bits)
     table = np.zeros(1 << bits, dtype=np.uint64)
     for code in known:
-        h = np.int64((code * _PHI) >> shift)
+        h = np.int64((code * FIBONACCI) >> shift)
         while table[h] != 0:
             h = (h + 1) & mask
         table[h] = code
@@ -156,7 +154,7 @@ def _parents_known(  # pragma: no cover - compiled
             continue
         both = True
         for code in (prefix[i], suffix[i]):
-            h = np.int64((code * _PHI) >> shift)
+            h = np.int64((code * FIBONACCI) >> shift)
             while table[h] != 0 and table[h] != code:
                 h = (h + 1) & mask
             both = both and table[h] == code

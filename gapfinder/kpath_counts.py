@@ -32,7 +32,7 @@ import numpy as np
 import pyarrow as pa
 from numba import njit
 
-from gapfinder.compiled import grow, python_twin
+from gapfinder.compiled import FIBONACCI, grow, python_twin
 
 __all__ = ["KpathCounts", "count_framed_kpaths", "count_kpaths", "frame_paths", "in_code_order"]
 
@@ -46,7 +46,6 @@ ROUND_POSITIONS = 1 << 24  # positions whose windows are held at once (about 13 
 BATCHES_PER_THREAD = 4  # batches of groups handed to the thread pool, per thread
 PYTHON_MAX_WORK = 50_000  # run slots plus signature visits below which plain Python is faster
 ENGINES = ("auto", "compiled", "python")
-_PHI = np.uint64(0x9E3779B97F4A7C15)  # 2**64 / golden ratio: Fibonacci hashing
 START = 0
 END = 1
 
@@ -158,7 +157,7 @@ def _rehash(  # pragma: no cover - compiled
     for i in range(table_codes.shape[0]):
         code = table_codes[i]
         if code != 0:
-            h = int((code * _PHI) >> np.uint64(shift)) & mask
+            h = int((code * FIBONACCI) >> np.uint64(shift)) & mask
             while codes[h] != 0:
                 h = (h + 1) & mask
             codes[h] = code
@@ -206,7 +205,7 @@ def _add_runs(  # pragma: no cover - compiled
         length = window_lengths[i]
         for k in range(2, length + 1):
             code = (np.uint64(k) << np.uint64(60)) | (window >> np.uint64((length - k) * bits))
-            h = int((code * _PHI) >> np.uint64(shift)) & mask
+            h = int((code * FIBONACCI) >> np.uint64(shift)) & mask
             while table_codes[h] != 0 and table_codes[h] != code:
                 h = (h + 1) & mask
             if table_codes[h] == 0:

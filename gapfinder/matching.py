@@ -19,7 +19,7 @@ import numba
 import numpy as np
 from numba import njit
 
-from gapfinder.compiled import grow, python_twin
+from gapfinder.compiled import FIBONACCI, grow, python_twin
 from gapfinder.mining import SequenceDatabase, use_python
 
 __all__ = [
@@ -210,14 +210,13 @@ def occurs(  # pragma: no cover - compiled
 # events about half of gap evidence's candidates fail it.
 SIGNATURE_WORDS = 4  # 256 bits a path: 32 bytes (132 MB for the 4.1M distinct paths of 100M events)
 SIGNATURE_REACH = QUICK_MAX_GAP + 1
-_PHI = np.uint64(0x9E3779B97F4A7C15)  # 2**64 / golden ratio: Fibonacci hashing
 
 
 @njit(cache=True, nogil=True)
 def _pair_bit(a: int, b: int) -> int:  # pragma: no cover - compiled
     """The signature bit of event a followed (within SIGNATURE_REACH) by event b."""
     key = (np.uint64(a) << np.uint64(32)) | np.uint64(b)
-    return int((key * _PHI) >> np.uint64(56)) % (64 * SIGNATURE_WORDS)
+    return int((key * FIBONACCI) >> np.uint64(56)) % (64 * SIGNATURE_WORDS)
 
 
 @njit(cache=True, nogil=True, parallel=True)
