@@ -20,7 +20,7 @@ from gapfinder.disclosure import complementary_suppression, kpath_parents
 from gapfinder.errors import ConfigError
 from gapfinder.kpath_counts import KpathCounts, count_framed_kpaths, frame_paths, in_code_order
 from gapfinder.privacy import DEFAULT_MIN_USERS
-from gapfinder.sql import fetch_arrow, fetch_dicts, first_row, list_arrays, registered, run
+from gapfinder.sql import fetch_arrow, fetch_dicts, fetch_numpy, first_row, list_arrays, registered, run
 from gapfinder.workspace import release_cached_memory
 
 __all__ = [
@@ -114,13 +114,13 @@ def _total_sessions(con: duckdb.DuckDBPyConnection) -> int:
 def hidden_kpath_codes(con: duckdb.DuckDBPyConnection, *, min_users: int) -> np.ndarray:
     """Packed codes of the k-paths no listing may show: under the user floor, or hidden to protect
     one that is (``gapfinder.disclosure``). The same cells are hidden in every listing."""
-    cells = fetch_arrow(con, "list_kpath_cells")
-    codes = cells.column("code").to_numpy().astype(np.uint64, copy=False)
+    cells = fetch_numpy(con, "list_kpath_cells")
+    codes = cells["code"].astype(np.uint64, copy=False)
     if len(codes) == 0:
         return codes
-    primary = cells.column("users").to_numpy() < min_users
-    occurrences = cells.column("occurrences").to_numpy()
-    del cells  # the users column is no longer needed (codes and occurrences keep their own buffers)
+    primary = cells["users"] < min_users
+    occurrences = cells["occurrences"]
+    del cells  # the users column is no longer needed
     codes, occurrences, primary = in_code_order(codes, occurrences, primary)
     counted = run(con, "count_features").fetchall()
     prefix, suffix = kpath_parents(codes, id_bits(int(counted[0][0]) if counted else 2))
@@ -130,12 +130,12 @@ def hidden_kpath_codes(con: duckdb.DuckDBPyConnection, *, min_users: int) -> np.
 
 def hidden_full_path_ids(con: duckdb.DuckDBPyConnection, *, min_users: int) -> np.ndarray:
     """Ids of the complete paths no listing may show (they partition all sessions)."""
-    cells = fetch_arrow(con, "list_full_path_cells")
-    ids = cells.column("path_id").to_numpy()
+    cells = fetch_numpy(con, "list_full_path_cells")
+    ids = cells["path_id"]
     if len(ids) == 0:
         return ids
-    users = cells.column("users").to_numpy()
-    sessions = cells.column("sessions").to_numpy()
+    users = cells["users"]
+    sessions = cells["sessions"]
     groups = [np.full(len(ids), -1, dtype=np.int64)]  # one group: every path, whose total is all sessions
     return ids[complementary_suppression(ids, sessions, users < min_users, groups)]
 
