@@ -203,7 +203,10 @@ def journey_families(ws: Workspace, options: FamilyOptions | None = None) -> dic
     total_sessions = int(sessions.sum())
     total_users = int(fetch_dicts(con, "summarize_sessions")[0]["user_count"] or 0)
     suite_transitions = _suite_transitions(ws)
-    transition_users = {(int(r["a"]), int(r["b"])): int(r["users"]) for r in fetch_dicts(con, "list_transition_users")}
+    transition_users = {
+        (int(r["a"]), int(r["b"])): int(r["users"])
+        for r in fetch_dicts(con, "list_transition_users", bits=id_bits(len(names)))
+    }
     hidden = set(hidden_full_path_ids(con, min_users=options.min_users).tolist())
     families: list[dict[str, Any]] = []
     held_back = 0

@@ -72,7 +72,7 @@ def build_paths(con: duckdb.DuckDBPyConnection, *, max_k: int = DEFAULT_MAX_K, i
     frame = counts.table()
     del counts
     with registered(con, kpath_counts=frame):
-        run(con, "create_kpaths", bits=bits)
+        run(con, "create_kpaths")
 
 
 def _count_runs(con: duckdb.DuckDBPyConnection, *, max_k: int, bits: int, include_automated: bool) -> KpathCounts:
@@ -166,11 +166,13 @@ def list_kpaths(
     ``hidden`` is ``hidden_kpath_codes(con, min_users=min_users)`` when the caller has it already."""
     if hidden is None:
         hidden = hidden_kpath_codes(con, min_users=min_users)
+    names = feature_names(con)
     with registered(con, hidden_kpath_codes=_code_frame(hidden)):
         rows = fetch_dicts(
             con,
             "list_kpaths",
-            names=feature_names(con),
+            names=names,
+            bits=id_bits(len(names)),
             min_k=min_k,
             max_k=max_k,
             min_users=min_users,

@@ -24,6 +24,7 @@ from gapfinder.paths import (
     build_paths,
     feature_names,
     hidden_kpath_codes,
+    id_bits,
     list_features,
     list_full_paths,
     list_kpaths,
@@ -70,7 +71,8 @@ def _iso(value: Any) -> str | None:
 def _fit_model(con: duckdb.DuckDBPyConnection) -> UsageModel:
     names = feature_names(con)
     edges = [
-        (r["source"], r["target"], r["occurrences"]) for r in fetch_dicts(con, "list_transition_counts", names=names)
+        (r["source"], r["target"], r["occurrences"])
+        for r in fetch_dicts(con, "list_transition_counts", names=names, bits=id_bits(len(names)))
     ]
     model = UsageModel.from_transitions(edges)
     edge_rows = [

@@ -12,6 +12,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from gapfinder.coverage import TestPaths, compute_coverage, load_field_items, load_test_paths
+from gapfinder.paths import feature_names
 from gapfinder.sessions import SessionOptions
 from gapfinder.suite import load_suite
 from gapfinder.usage_profile import ProfileOptions, profile_telemetry
@@ -211,15 +212,23 @@ def test_pattern_hits_equal_the_plain_subsequence_check(
     assert hits.tolist() == expected
 
 
-def test_field_item_paths_decoded_from_codes_equal_the_stored_paths(tmp_path: Path) -> None:
-    """FieldItems holds no list column: each row's path is decoded from its packed code, and must be
-    the event ids kpaths stores for it (k = 1 .. max_k, START and END included)."""
+def test_field_item_paths_decoded_from_codes_are_the_runs_of_the_sessions(tmp_path: Path) -> None:
+    """FieldItems holds no list column: each row's path is decoded from its packed code, and the
+    decoded paths must be exactly the contiguous runs of the framed sessions (k = 1 without START
+    and END, k = 2 .. max_k with them), each once."""
     sessions = [("u1", list("abcab")), ("u2", list("abd")), ("u3", list("cab")), ("u1", list("dcba"))]
     ws = build_workspace(tmp_path, sessions, [["a"]])
     with Workspace(ws, read_only=True) as workspace:
         items = load_field_items(workspace)
-        stored = dict(workspace.con.execute("SELECT code, path FROM kpaths").fetchall())
-    assert len(items.code) == len(stored) and items.max_k >= 3
-    for row, code in enumerate(items.code.tolist()):
-        assert list(items.path(row)) == list(stored[code])
-        assert items.k[row] == len(stored[code])
+        names = feature_names(workspace.con)
+    start, end = names[0], names[1]
+    expected = set()
+    for _user, events in sessions:
+        framed = [start, *events, end]
+        for k in range(1, MAX_K + 1):
+            expected |= {tuple(framed[i : i + k]) for i in range(len(framed) - k + 1)}
+    expected -= {(start,), (end,)}
+    decoded = [tuple(names[e] for e in items.path(row)) for row in range(len(items.code))]
+    assert items.max_k == MAX_K
+    assert sorted(decoded) == sorted(expected)
+    assert [len(path) for path in decoded] == items.k.tolist()

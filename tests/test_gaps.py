@@ -8,8 +8,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from gapfinder.coverage import unpack_code
 from gapfinder.gaps import GapOptions, find_gaps, unused_tests
-from gapfinder.paths import feature_names
+from gapfinder.paths import feature_names, id_bits
 from gapfinder.suite import load_suite
 from gapfinder.workspace import Workspace
 from tests.helpers import SAMPLE
@@ -23,8 +24,10 @@ def demo_gaps(suite_workspace: Path) -> dict:
         result = find_gaps(ws, GapOptions(top=10))
         result["_unused"] = unused_tests(ws)
         names = feature_names(ws.con)
+        bits = id_bits(len(names))
         result["_kpaths"] = {
-            tuple(names[e] for e in p): s for p, s in ws.con.execute("SELECT path, sessions FROM kpaths").fetchall()
+            tuple(names[e] for e in unpack_code(code, bits)): s
+            for code, s in ws.con.execute("SELECT code, sessions FROM kpaths").fetchall()
         }
     return result
 
