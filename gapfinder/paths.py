@@ -140,13 +140,15 @@ def hidden_full_path_ids(con: duckdb.DuckDBPyConnection, *, min_users: int) -> n
     return ids[complementary_suppression(ids, sessions, users < min_users, groups)]
 
 
+def _hidden_of_length(hidden_codes: np.ndarray, min_k: int, max_k: int) -> np.ndarray:
+    """The hidden codes of k = min_k..max_k: a listing's anti-join then builds its hash table over
+    those only (at 50M high-entropy events 16.5M codes are hidden, a few hundred of them features)."""
+    k = hidden_codes.astype(np.uint64) >> np.uint64(60)
+    return hidden_codes[(k >= min_k) & (k <= max_k)]
+
+
 def _code_frame(codes: np.ndarray) -> pa.Table:
     return pa.table({"code": pa.array(codes, type=pa.uint64())})
-
-
-def _held_back(hidden_codes: np.ndarray, min_k: int, max_k: int) -> int:
-    k = hidden_codes.astype(np.uint64) >> np.uint64(60)
-    return int(((k >= min_k) & (k <= max_k)).sum())
 
 
 def list_kpaths(
@@ -166,6 +168,7 @@ def list_kpaths(
     ``hidden`` is ``hidden_kpath_codes(con, min_users=min_users)`` when the caller has it already."""
     if hidden is None:
         hidden = hidden_kpath_codes(con, min_users=min_users)
+    hidden = _hidden_of_length(hidden, min_k, max_k)
     names = feature_names(con)
     with registered(con, hidden_kpath_codes=_code_frame(hidden)):
         rows = fetch_dicts(
@@ -180,7 +183,7 @@ def list_kpaths(
             total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
             limit=limit,
         )
-    return Listing(rows, _held_back(hidden, min_k, max_k), min_users)
+    return Listing(rows, len(hidden), min_users)
 
 
 def list_full_paths(
@@ -219,6 +222,7 @@ def list_features(
     ``list_kpaths``)."""
     if hidden is None:
         hidden = hidden_kpath_codes(con, min_users=min_users)
+    hidden = _hidden_of_length(hidden, 1, 1)
     with registered(con, hidden_kpath_codes=_code_frame(hidden)):
         rows = fetch_dicts(
             con,
@@ -228,4 +232,4 @@ def list_features(
             total_sessions=_total_sessions(con) if total_sessions is None else total_sessions,
             limit=limit,
         )
-    return Listing(rows, _held_back(hidden, 1, 1), min_users)
+    return Listing(rows, len(hidden), min_users)
