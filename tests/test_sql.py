@@ -36,3 +36,11 @@ def test_an_empty_result_keeps_the_types() -> None:
 def test_a_null_is_reported_with_its_column() -> None:
     with pytest.raises(QueryError, match=r"list_kpath_cells\.sql returned NULL in column 'occurrences'"):
         fetch_numpy(_kpaths([(1, None, 2)]), "list_kpath_cells")
+
+
+def test_rows_read_in_many_batches_fill_the_arrays_in_order() -> None:
+    rows = [((k % 7 + 1) << 60 | k, k * 3, k % 5) for k in range(1000)]
+    columns = fetch_numpy(_kpaths(rows), "list_kpath_cells", batch_rows=64)
+    assert columns["code"].tolist() == [r[0] for r in rows]
+    assert columns["occurrences"].tolist() == [r[1] for r in rows]
+    assert columns["users"].dtype == np.int64
