@@ -32,7 +32,7 @@ from numba import njit
 
 from gapfinder.matching import (
     EventIndex,
-    candidate_sequences,
+    candidate_ranges,
     has_pairs,
     occurs,
     pair_signatures,
@@ -151,8 +151,11 @@ def _session_kernel(  # pragma: no cover - compiled
     pattern_starts: np.ndarray,
     pattern_gaps: np.ndarray,
     framed: np.ndarray,
-    candidate_ptr: np.ndarray,
+    candidate_lo: np.ndarray,
+    candidate_hi: np.ndarray,
+    every: np.ndarray,
     candidates: np.ndarray,
+    hit_ptr: np.ndarray,
     group_ptr: np.ndarray,
     group_n: np.ndarray,
     group_error: np.ndarray,
@@ -173,6 +176,10 @@ def _session_kernel(  # pragma: no cover - compiled
     """(hit per candidate sequence, counts, expected-rate sum and sessions, next failures per event,
     sessions per segment value), one row per pattern; users are counted by ``_user_counts``.
 
+    Pattern p's candidates are ``candidates[candidate_lo[p]:candidate_hi[p]]`` (the inverted
+    index's list of its rarest event, read in place), or every sequence when ``every[p]``; its
+    hits are flagged from ``hit[hit_ptr[p]]`` on, one flag a candidate.
+
     The sequences are taken a tile of about ``tile_items`` items at a time, every pattern of a
     chunk going through its candidates in the tile before the next tile: the tile's items and
     groups stay in the core's cache while dozens of patterns read them."""
@@ -184,7 +191,7 @@ def _session_kernel(  # pragma: no cover - compiled
     longest = 2
     for s in range(sequences):
         longest = max(longest, starts[s + 1] - starts[s] + 2)
-    hit = np.zeros(candidates.shape[0], dtype=np.bool_)
+    hit = np.zeros(hit_ptr[-1], dtype=np.bool_)
     counts = np.zeros((patterns, _COUNT_COLUMNS), dtype=np.int64)
     rate_sum = np.zeros(patterns, dtype=np.float64)
     rate_sessions = np.zeros(patterns, dtype=np.int64)
@@ -197,7 +204,7 @@ def _session_kernel(  # pragma: no cover - compiled
         nxt = np.zeros(width, dtype=np.int64)
         positions = np.zeros(width, dtype=np.int64)
         dead = np.zeros(width * longest, dtype=np.int64)
-        cursor = candidate_ptr[:-1].copy()
+        cursor = candidate_lo.copy()
         tried = 0
         tile_start = 0
         while tile_start < sequences:
@@ -210,11 +217,14 @@ def _session_kernel(  # pragma: no cover - compiled
                 gap = pattern_gaps[p]
                 is_framed = framed[p]
                 t = cursor[p]
+                end = candidate_hi[p]
+                whole = every[p]
+                flag_at = hit_ptr[p] - candidate_lo[p]
                 quick = quick_scan_handles(k, gap)
                 if quick:
                     set_steps(step_mask, pattern_items, a, b, True)
-                while t < candidate_ptr[p + 1] and candidates[t] < tile_end:
-                    s = candidates[t]
+                while t < end and (t if whole else candidates[t]) < tile_end:
+                    s = t if whole else candidates[t]
                     t += 1
                     lo, hi = starts[s], starts[s + 1]
                     if not has_pairs(signatures, s, needs, p):
@@ -224,7 +234,7 @@ def _session_kernel(  # pragma: no cover - compiled
                     tried += 1
                     if not first_occurrence(items, lo, hi, pattern_items, a, b, gap, is_framed, cur, nxt, dead, tried):
                         continue
-                    hit[t - 1] = True
+                    hit[flag_at + t - 1] = True
                     length = hi - lo
                     for q in range(k):
                         positions[q] = cur[q] if is_framed else cur[q] + 1  # session-path positions from 1
@@ -272,17 +282,24 @@ def _session_kernel(  # pragma: no cover - compiled
 
 @njit(cache=True, nogil=True)
 def _path_masks(  # pragma: no cover - compiled
-    hit: np.ndarray, candidate_ptr: np.ndarray, candidates: np.ndarray, sequence_count: int
+    hit: np.ndarray,
+    hit_ptr: np.ndarray,
+    candidate_lo: np.ndarray,
+    every: np.ndarray,
+    candidates: np.ndarray,
+    sequence_count: int,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """(low, high): each sequence's mask of the patterns (at most 128) that ``hit`` says it holds."""
+    """(low, high): each sequence's mask of the patterns (at most 128) that ``hit`` says it holds
+    (candidates as ``_session_kernel`` reads them)."""
     low = np.zeros(sequence_count, dtype=np.uint64)
     high = np.zeros(sequence_count, dtype=np.uint64)
-    for p in range(candidate_ptr.shape[0] - 1):
+    for p in range(hit_ptr.shape[0] - 1):
         bit = np.uint64(1) << np.uint64(p % 64)
         words = low if p < 64 else high
-        for t in range(candidate_ptr[p], candidate_ptr[p + 1]):
-            if hit[t]:
-                words[candidates[t]] |= bit
+        for f in range(hit_ptr[p], hit_ptr[p + 1]):
+            if hit[f]:
+                t = candidate_lo[p] + f - hit_ptr[p]
+                words[t if every[p] else candidates[t]] |= bit
     return low, high
 
 
@@ -415,7 +432,9 @@ def gap_evidence(
     np.cumsum(lengths, out=pattern_starts[1:])
     flat = np.array([e for p in patterns for e in p], dtype=np.int32)
     gaps = np.array([-1 if g is None else int(g) for g in max_gaps], dtype=np.int64)
-    candidate_ptr, candidates = candidate_sequences(db, patterns, index)
+    candidate_lo, candidate_hi, every = candidate_ranges(db, patterns, index)
+    hit_ptr = np.zeros(len(patterns) + 1, dtype=np.int64)
+    np.cumsum(candidate_hi - candidate_lo, out=hit_ptr[1:])
     top_event = max(int(db.items.max()) + 1 if len(db.items) else 0, 2)
     rates = np.full(top_event, np.nan)
     rates[: min(top_event, len(event_rate))] = event_rate[:top_event]
@@ -427,8 +446,11 @@ def gap_evidence(
         pattern_starts,
         gaps,
         np.array(framed, dtype=np.bool_),
-        candidate_ptr,
-        candidates,
+        candidate_lo,
+        candidate_hi,
+        every,
+        index[1],
+        hit_ptr,
         sessions.group_ptr,
         sessions.group_n,
         sessions.group_error,
@@ -446,7 +468,7 @@ def gap_evidence(
         pair_signatures(db) if signatures is None else signatures,
         signature_needs(flat, pattern_starts, gaps),
     )
-    low, high = _path_masks(hit, candidate_ptr, candidates, db.sequence_count)
+    low, high = _path_masks(hit, hit_ptr, candidate_lo, every, index[1], db.sequence_count)
     users, earlier, value_users = _user_counts(con, db, sessions, low, high)
     counts[:, _USERS] = users[: len(patterns)]
     counts[:, _EARLIER] = earlier[: len(patterns)]

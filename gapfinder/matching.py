@@ -24,6 +24,7 @@ from gapfinder.mining import SequenceDatabase, use_python
 
 __all__ = [
     "EventIndex",
+    "candidate_ranges",
     "candidate_sequences",
     "containing_sequences",
     "event_index",
@@ -401,30 +402,39 @@ def event_index(db: SequenceDatabase, *, plain: bool = False) -> EventIndex:
     return result
 
 
+def candidate_ranges(
+    db: SequenceDatabase, patterns: list[tuple[int, ...]], index: EventIndex
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per pattern, where the sequences that contain its rarest event lie in ``index``'s sequence
+    list (only those can contain the pattern): (lo, hi, every), with ``every`` set, and lo, hi
+    0 and the sequence count, for patterns made only of START/END (ids 0 and 1, never stored in
+    sequences), which are tried on every sequence (the sequence is then the position itself)."""
+    bounds = index[0]
+    top_event = len(bounds) - 1
+    lo = np.zeros(len(patterns), dtype=np.int64)
+    hi = np.zeros(len(patterns), dtype=np.int64)
+    every = np.zeros(len(patterns), dtype=np.bool_)
+    for p, pattern in enumerate(patterns):
+        real = [e for e in pattern if e > 1]
+        if not real:
+            hi[p], every[p] = db.sequence_count, True
+        elif all(e < top_event for e in real):
+            rarest = min(real, key=lambda e: bounds[e + 1] - bounds[e])
+            lo[p], hi[p] = bounds[rarest], bounds[rarest + 1]
+    return lo, hi, every
+
+
 def candidate_sequences(
     db: SequenceDatabase, patterns: list[tuple[int, ...]], index: EventIndex
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Per pattern, the sequences that contain its rarest event (from ``index``): only those can
-    contain the pattern. Patterns made only of START/END (ids 0 and 1, never stored in sequences)
-    are tried on every sequence."""
-    n_seq = db.sequence_count
-    bounds, sequence_of_key = index
-    top_event = len(bounds) - 1
-    everything = np.arange(n_seq, dtype=np.int32)
-    lists = []
-    for pattern in patterns:
-        real = [e for e in pattern if e > 1]
-        if not real:
-            lists.append(everything)
-            continue
-        if any(e >= top_event for e in real):
-            lists.append(everything[:0])
-            continue
-        rarest = min(real, key=lambda e: bounds[e + 1] - bounds[e])
-        lists.append(sequence_of_key[bounds[rarest] : bounds[rarest + 1]])
+    """The sequences of ``candidate_ranges`` listed pattern by pattern: (ptr, sequences), pattern i's
+    being ``sequences[ptr[i]:ptr[i + 1]]``."""
+    lo, hi, every = candidate_ranges(db, patterns, index)
+    sequences = index[1]
+    everything = np.arange(db.sequence_count, dtype=np.int32)
+    lists = [everything if every[p] else sequences[lo[p] : hi[p]] for p in range(len(patterns))]
     ptr = np.zeros(len(patterns) + 1, dtype=np.int64)
     np.cumsum([len(x) for x in lists], out=ptr[1:])
-    # int32, as the index holds them: at 50M high-entropy events a block lists ~60M candidates
     flat = np.concatenate(lists).astype(np.int32, copy=False) if lists else np.zeros(0, np.int32)
     return ptr, flat
 

@@ -7,6 +7,7 @@ import shutil
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pyarrow as pa
 import pytest
 
@@ -14,8 +15,9 @@ import gapfinder.gap_evidence as gap_evidence_module
 import gapfinder.gaps as gaps_module
 from gapfinder.gap_evidence import mask_pairs
 from gapfinder.gaps import GapOptions, find_gaps
-from gapfinder.matching import containing_sequences
+from gapfinder.matching import containing_sequences, event_index
 from gapfinder.occurrences import first_occurrences
+from gapfinder.patterns import load_sequences
 from gapfinder.sql import registered
 from gapfinder.workspace import Workspace
 
@@ -158,3 +160,29 @@ def test_equals_the_join_of_every_session(
                 else:
                     assert got["next_failing_event_id"] is None
             assert segments == expected_segments
+
+
+def test_a_pattern_of_start_alone_is_tried_on_every_path(suite_workspace: Path) -> None:
+    """A pattern made only of START/END has no event to look up in the inverted index: it is tried on
+    every distinct path (framed START alone is in all of them; START → END in none: no session is
+    empty), beside a pattern read from the index."""
+    with Workspace(suite_workspace, read_only=True) as ws:
+        db = load_sequences(ws.con, with_users=False)
+        sessions = gap_evidence_module.load_path_sessions(ws.con, db, midpoint=None, include_automated=False)
+        common = int(np.bincount(db.items).argmax())
+        evidence, _, low, high = gap_evidence_module.gap_evidence(
+            ws.con,
+            db,
+            sessions,
+            [(0,), (0, 1), (common,)],
+            max_gaps=[0, 0, 0],
+            framed=[True, True, False],
+            event_rate=np.zeros(0),
+            index=event_index(db),
+        )
+    assert evidence[0]["sessions"] == int(db.weights.sum())
+    assert gap_evidence_module.masked_sequences(low, high, 0).tolist() == list(range(db.sequence_count))
+    assert 1 not in evidence
+    holding = [s for s in range(db.sequence_count) if common in db.items[db.starts[s] : db.starts[s + 1]]]
+    assert gap_evidence_module.masked_sequences(low, high, 2).tolist() == holding
+    assert evidence[2]["sessions"] == int(db.weights[holding].sum())

@@ -262,7 +262,7 @@ def test_evidence_in_blocks_of_any_size_equals_one_block(
         whole = find_gaps(ws, GapOptions(top=10))
         monkeypatch.setattr(gaps_module, "BLOCK_CANDIDATES", 7)
         blocked = find_gaps(ws, GapOptions(top=10))
-        monkeypatch.setattr(gaps_module, "PAIRS_PER_BLOCK", 50)  # blocks by expected pairs: often one candidate
+        monkeypatch.setattr(gaps_module, "BLOCK_CANDIDATE_PATHS", 50)  # blocks by paths to try: often one candidate
         by_pairs = find_gaps(ws, GapOptions(top=10))
     assert blocked["candidates"] > 7 * 2 and len(blocked["gaps"]) == 10
     assert json.dumps(blocked, sort_keys=True, default=str) == json.dumps(whole, sort_keys=True, default=str)
@@ -270,13 +270,18 @@ def test_evidence_in_blocks_of_any_size_equals_one_block(
 
 
 def test_blocks_cover_the_pool_in_order_within_both_bounds() -> None:
-    from gapfinder.gaps import BLOCK_CANDIDATES, PAIRS_PER_BLOCK, _blocks, _Candidate
+    from gapfinder.gaps import BLOCK_CANDIDATE_PATHS, BLOCK_CANDIDATES, _blocks
 
-    pool = [_Candidate("kpath", (2, 3), sessions, sessions, True, 0) for sessions in [900, 500, 40, 40, 3, *[1] * 300]]
-    blocks = _blocks(pool, distinct_paths=PAIRS_PER_BLOCK * 10, sessions=1000)  # a session: 1 % of the budget
-    assert blocks[:3] == [(0, 1), (1, 2), (2, 22)]  # 9x and 5x the budget alone; then 40 + 40 + 3 + 17 x 1
-    assert [lo for lo, _ in blocks[1:]] == [hi for _, hi in blocks[:-1]] and blocks[-1][1] == len(pool)
+    budget = BLOCK_CANDIDATE_PATHS
+    tried = np.array([9 * budget, 5 * budget, budget // 4, budget // 4, budget // 10, *[budget // 20] * 300])
+    blocks = _blocks(tried)
+    # 9x and 5x the budget alone; then 25 % + 25 % + 10 % + 8 x 5 %, the next one over it; then 20 x 5 %
+    assert blocks[:4] == [(0, 1), (1, 2), (2, 13), (13, 33)]
+    assert [lo for lo, _ in blocks[1:]] == [hi for _, hi in blocks[:-1]] and blocks[-1][1] == len(tried)
     assert all(0 < hi - lo <= BLOCK_CANDIDATES for lo, hi in blocks)
+    assert all(tried[lo:hi].sum() <= budget for lo, hi in blocks if hi - lo > 1)
+    small = _blocks(np.ones(300, dtype=np.int64))  # within the budget: blocks of BLOCK_CANDIDATES
+    assert small == [(0, BLOCK_CANDIDATES), (BLOCK_CANDIDATES, 2 * BLOCK_CANDIDATES), (2 * BLOCK_CANDIDATES, 300)]
 
 
 def test_frontier_equals_a_check_by_sets(suite_workspace: Path) -> None:
