@@ -686,7 +686,9 @@ def _count_longer_runs(
     bits: int,
     kernel: str,
 ) -> list[Any]:
-    """The parts of k = 2..max_k, round by round, each round's groups in batches on ``pool``."""
+    """The parts of k = 2..max_k, round by round, each round's groups in batches on ``pool``; this
+    thread lays out the next round's windows while the pool counts the current one (at 50M
+    high-entropy events the layouts took 1.6 s on one core, the counting 7.7 s on two)."""
     plain = kernel == "python"
     parts: list[Any] = []
     count_groups: Callable[..., Any] = _count_groups_python if plain else _count_groups
@@ -694,11 +696,15 @@ def _count_longer_runs(
     taken_by = np.repeat(signature[2], np.diff(signature[0]))[held]
     path_users = np.bincount(signature[1][held], weights=taken_by, minlength=len(sessions)).astype(_I64)
     tail = (*signature, *_signatures_of_paths(signature[0], signature[1], len(starts) - 1, kernel), max_k, bits)
-    for part in _rounds(starts, framed, bits, max_k, plain):
+    counting: list[Any] = []  # the current round's batches on the pool
+    for part in _rounds(starts, framed, bits, max_k, plain):  # laid out meanwhile
         head = (part.windows, part.lengths, part.paths, sessions, path_users, part.group_bounds)
         batches = _batches(part.group_bounds, workers * BATCHES_PER_THREAD if workers > 1 else 1)
+        parts += [future.result() for future in counting]
         if workers == 1 or len(batches) <= 1:
+            counting = []
             parts += [count_groups(*head, lo, hi, *tail) for lo, hi in batches]
         else:
-            parts += list(pool.map(lambda batch, h=head: count_groups(*h, batch[0], batch[1], *tail), batches))
+            counting = [pool.submit(count_groups, *head, lo, hi, *tail) for lo, hi in batches]
+    parts += [future.result() for future in counting]
     return parts
