@@ -374,10 +374,21 @@ def _count_groups(  # pragma: no cover - compiled
                     if signature_hits[s] == 2:
                         touched[touched_count] = s
                         touched_count += 1
-        if touched_count > 0:  # the group's distinct runs path by path (offsets in fill)
+        if touched_count > 0:  # the distinct runs of the touched signatures' paths (offsets in fill)
+            # only those paths are listed: a user's paths rarely meet in a group (at 50M high-entropy
+            # events listing every path of the group took 2.1 of the count's 8.9 s)
+            needed = np.zeros(path_total, dtype=np.bool_)
+            for t in range(touched_count):
+                s = touched[t]
+                for m in range(signature_starts[s], signature_starts[s + 1]):
+                    p = signature_paths[m]
+                    if p >= 0 and path_group[p] == group:
+                        needed[path_slot[p]] = True
             fill = np.zeros(path_total + 1, dtype=np.int64)
             for i in range(lo, hi):
                 j = path_slot[window_paths[i]]
+                if not needed[j]:
+                    continue
                 for k in range(width):
                     if slot_runs[(i - lo) * width + k] >= 0:
                         fill[j + 1] += 1
@@ -387,6 +398,8 @@ def _count_groups(  # pragma: no cover - compiled
             cursor = fill[:path_total].copy()
             for i in range(lo, hi):
                 j = path_slot[window_paths[i]]
+                if not needed[j]:
+                    continue
                 for k in range(width):
                     run = slot_runs[(i - lo) * width + k]
                     if run >= 0:
