@@ -39,6 +39,7 @@ from gapfinder.matching import (
     quick_scan_handles,
     set_steps,
     signature_needs,
+    signature_reach,
     step_table_size,
 )
 from gapfinder.mining import SequenceDatabase
@@ -411,6 +412,7 @@ def gap_evidence(
     event_rate: np.ndarray,
     index: EventIndex,
     signatures: np.ndarray | None = None,
+    reach: int | None = None,
 ) -> tuple[dict[int, dict[str, Any]], list[dict[str, Any]], np.ndarray, np.ndarray]:
     """(evidence per pattern that some counted session holds, segment rows per pattern and value,
     and the sequences that contain each pattern as two words of bits per sequence, pattern p being bit
@@ -418,8 +420,9 @@ def gap_evidence(
     16 bytes a sequence however many patterns hold it; ``mask_pairs`` lists them).
 
     ``event_rate[e]``: the failure rate of event e anywhere (NaN when unknown); ``index``:
-    ``matching.event_index(db)``; ``signatures``: ``matching.pair_signatures(db)`` (made here when
-    not given: a caller with several blocks makes them once)."""
+    ``matching.event_index(db)``; ``signatures``: ``matching.pair_signatures(db, reach)`` (made here
+    when not given: a caller with several blocks makes them once), ``reach`` at least
+    ``matching.signature_reach(max_gaps)`` (that when not given)."""
     if not patterns or db.sequence_count == 0:
         empty = np.zeros(db.sequence_count, dtype=np.uint64)
         return {}, [], empty, empty.copy()
@@ -432,6 +435,7 @@ def gap_evidence(
     np.cumsum(lengths, out=pattern_starts[1:])
     flat = np.array([e for p in patterns for e in p], dtype=np.int32)
     gaps = np.array([-1 if g is None else int(g) for g in max_gaps], dtype=np.int64)
+    reach = signature_reach(max_gaps) if reach is None else reach
     candidate_lo, candidate_hi, every = candidate_ranges(db, patterns, index)
     hit_ptr = np.zeros(len(patterns) + 1, dtype=np.int64)
     np.cumsum(candidate_hi - candidate_lo, out=hit_ptr[1:])
@@ -465,8 +469,8 @@ def gap_evidence(
         chunks,
         TILE_ITEMS,
         step_table_size(db, flat),
-        pair_signatures(db) if signatures is None else signatures,
-        signature_needs(flat, pattern_starts, gaps),
+        pair_signatures(db, reach) if signatures is None else signatures,
+        signature_needs(flat, pattern_starts, gaps, reach),
     )
     low, high = _path_masks(hit, hit_ptr, candidate_lo, every, index[1], db.sequence_count)
     users, earlier, value_users = _user_counts(con, db, sessions, low, high)

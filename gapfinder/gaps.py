@@ -42,7 +42,13 @@ from gapfinder.coverage import (
 from gapfinder.disclosure import kpath_parents
 from gapfinder.errors import ConfigError
 from gapfinder.gap_evidence import MAX_PATTERNS, gap_evidence, load_path_sessions
-from gapfinder.matching import candidate_ranges, containing_sequences, event_index, pair_signatures
+from gapfinder.matching import (
+    candidate_ranges,
+    containing_sequences,
+    event_index,
+    pair_signatures,
+    signature_reach,
+)
 from gapfinder.mining import use_python
 from gapfinder.paths import feature_names, hidden_full_path_ids
 from gapfinder.patterns import load_sequences, profile_included_automated
@@ -403,7 +409,8 @@ def _evidence_in_blocks(
     sets = MaskedSessionSets(db.weights, len(pool))
     sessions = load_path_sessions(con, db, midpoint=midpoint, include_automated=include_automated)
     index = event_index(db, plain=use_python("auto", len(db.items)))  # once for every block
-    signatures = pair_signatures(db)
+    reach = signature_reach([c.gap for c in pool])  # the pairs the pool's candidates need, no more
+    signatures = pair_signatures(db, reach)
     first, last, _every = candidate_ranges(db, [c.path for c in pool], index)
     for lo, hi in _blocks(last - first):
         block = pool[lo:hi]
@@ -417,6 +424,7 @@ def _evidence_in_blocks(
             event_rate=event_rate,
             index=index,
             signatures=signatures,
+            reach=reach,
         )
         evidence.update({c + lo: {**ev, "candidate": c + lo} for c, ev in found.items()})
         segment_rows.extend({**r, "candidate": int(r["candidate"]) + lo} for r in segments)

@@ -89,20 +89,35 @@ def test_a_long_run_of_one_event_is_searched_once_per_position() -> None:
     sequence=st.lists(st.integers(2, 6), min_size=1, max_size=12),
     pattern=st.lists(st.integers(2, 6), min_size=1, max_size=4),
     gap=st.sampled_from([0, 1, 2, 3]),
+    reach=st.sampled_from([1, 2, 3, 4]),
 )
-def test_a_path_holding_a_pattern_has_its_pair_signature(sequence: list[int], pattern: list[int], gap: int) -> None:
+def test_a_path_holding_a_pattern_has_its_pair_signature(
+    sequence: list[int], pattern: list[int], gap: int, reach: int
+) -> None:
     """The signature test only rules out: wherever the pattern occurs (by enumeration), the path's
-    signature holds every bit the pattern needs; and a pattern of one step needs none."""
+    signature of any reach holds every bit the pattern needs from it; a pattern of one step needs
+    none, nor does one whose gaps the reach does not cover."""
     from gapfinder.matching import has_pairs, pair_signatures, signature_needs
 
     db = SequenceDatabase.from_sequences([sequence])
     needs = signature_needs(
-        np.array(pattern, dtype=np.int32), np.array([0, len(pattern)], dtype=np.int64), np.array([gap], dtype=np.int64)
+        np.array(pattern, dtype=np.int32),
+        np.array([0, len(pattern)], dtype=np.int64),
+        np.array([gap], dtype=np.int64),
+        reach,
     )
-    if len(pattern) == 1:
+    if len(pattern) == 1 or gap + 1 > reach:
         assert not needs.any()
     if _smallest_occurrence(sequence, tuple(pattern), gap, framed=False) is not None:
-        assert has_pairs(pair_signatures(db), 0, needs, 0)
+        assert has_pairs(pair_signatures(db, reach), 0, needs, 0)
+
+
+def test_the_reach_is_what_the_bounded_gaps_need() -> None:
+    from gapfinder.matching import SIGNATURE_REACH, signature_reach
+
+    assert signature_reach([2, None, 0, 2]) == 3
+    assert signature_reach([None, 17]) == 1  # no bounded pattern: no pair is needed
+    assert signature_reach([3, 1]) == SIGNATURE_REACH
 
 
 def test_a_missing_pair_rules_a_path_out() -> None:
@@ -112,7 +127,7 @@ def test_a_missing_pair_rules_a_path_out() -> None:
 
     sequence = [2, 4, 4, 4, 4, 3]
     db = SequenceDatabase.from_sequences([sequence])
-    needs = signature_needs(np.array([2, 3], dtype=np.int32), np.array([0, 2], dtype=np.int64), np.array([3]))
+    needs = signature_needs(np.array([2, 3], dtype=np.int32), np.array([0, 2], dtype=np.int64), np.array([3]), 4)
     held = {_pair_bit(a, b) for i, a in enumerate(sequence) for b in sequence[i + 1 : i + 5]}
     assert _pair_bit(2, 3) not in held  # the hash keeps this pair apart from the path's pairs
     assert not has_pairs(pair_signatures(db), 0, needs, 0)
