@@ -16,7 +16,16 @@ from typing import Any
 import numpy as np
 from numba import njit
 
-__all__ = ["FIBONACCI", "grow", "python_twin"]
+__all__ = [
+    "FIBONACCI",
+    "append_pattern_row",
+    "distinct_users",
+    "grow",
+    "grow_pattern_rows",
+    "grow_rows",
+    "heap_push",
+    "python_twin",
+]
 
 # Fibonacci hashing (common practice; Knuth, TAOCP vol. 3, 6.4, cited from memory): the top bits of
 # key * 2**64 / golden ratio spread keys over a power-of-two table.
@@ -34,6 +43,122 @@ def grow(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cover - c
     bigger = np.empty(size, dtype=buffer.dtype)
     bigger[: buffer.shape[0]] = buffer
     return bigger
+
+
+@njit(cache=True, nogil=True)
+def grow_rows(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cover - compiled
+    """``grow`` for a two-dimensional buffer: rows doubled until ``needed`` fit."""
+    size = buffer.shape[0]
+    while size < needed:
+        size *= 2
+    if size == buffer.shape[0]:
+        return buffer
+    bigger = np.empty((size, buffer.shape[1]), dtype=buffer.dtype)
+    bigger[: buffer.shape[0]] = buffer
+    return bigger
+
+
+@njit(cache=True, nogil=True)
+def grow_pattern_rows(  # pragma: no cover - compiled
+    out_items: np.ndarray, out_len: np.ndarray, out_support: np.ndarray, out_users: np.ndarray, needed: int
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """A mining kernel's four output buffers with room for ``needed`` rows (new event cells are -1)."""
+    old_rows = out_items.shape[0]
+    out_items = grow_rows(out_items, needed)
+    out_items[old_rows:] = -1
+    return out_items, grow(out_len, needed), grow(out_support, needed), grow(out_users, needed)
+
+
+@njit(cache=True, nogil=True)
+def append_pattern_row(  # pragma: no cover - compiled
+    out_items: np.ndarray,
+    out_len: np.ndarray,
+    out_support: np.ndarray,
+    out_users: np.ndarray,
+    rows: int,
+    pattern: np.ndarray,
+    length: int,
+    support: int,
+    users: int,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """A mining kernel's output buffers with row ``rows`` set to ``pattern[:length]``, its support
+    and its users (grown first when full)."""
+    if rows >= out_len.shape[0]:
+        out_items, out_len, out_support, out_users = grow_pattern_rows(
+            out_items, out_len, out_support, out_users, rows + 1
+        )
+    for d in range(length):
+        out_items[rows, d] = pattern[d]
+    out_len[rows] = length
+    out_support[rows] = support
+    out_users[rows] = users
+    return out_items, out_len, out_support, out_users
+
+
+@njit(cache=True, nogil=True)
+def distinct_users(  # pragma: no cover - compiled
+    sequences: np.ndarray,
+    lo: int,
+    hi: int,
+    sole_user: np.ndarray,
+    user_ptr: np.ndarray,
+    user_ids: np.ndarray,
+    user_stamp: np.ndarray,
+    mark: int,
+) -> int:
+    """Distinct users of the sequences in ``sequences[lo:hi]`` (ascending, repeats allowed): each
+    sequence's sole user, or its list in ``user_ids[user_ptr[s]:user_ptr[s + 1]]`` when it has
+    several; ``user_stamp`` marks the users counted under ``mark`` (a new mark per call)."""
+    users = 0
+    previous = -1
+    for idx in range(lo, hi):
+        s = sequences[idx]
+        if s == previous:
+            continue
+        previous = s
+        uid = sole_user[s]
+        if uid >= 0:  # the common case: one user took the sequence
+            if user_stamp[uid] != mark:
+                user_stamp[uid] = mark
+                users += 1
+            continue
+        for u in range(user_ptr[s], user_ptr[s + 1]):
+            uid = user_ids[u]
+            if user_stamp[uid] != mark:
+                user_stamp[uid] = mark
+                users += 1
+    return users
+
+
+@njit(cache=True, nogil=True)
+def heap_push(heap: np.ndarray, size: int, value: int) -> int:  # pragma: no cover - compiled
+    """Keep the ``len(heap)`` largest values seen in a min-heap; returns the new size."""
+    capacity = heap.shape[0]
+    if size < capacity:
+        i = size
+        heap[i] = value
+        while i > 0:
+            parent = (i - 1) // 2
+            if heap[parent] <= heap[i]:
+                break
+            heap[parent], heap[i] = heap[i], heap[parent]
+            i = parent
+        return size + 1
+    if value <= heap[0]:
+        return size
+    heap[0] = value
+    i = 0
+    while True:
+        left, right, smallest = 2 * i + 1, 2 * i + 2, i
+        if left < size and heap[left] < heap[smallest]:
+            smallest = left
+        if right < size and heap[right] < heap[smallest]:
+            smallest = right
+        if smallest == i:
+            break
+        heap[smallest], heap[i] = heap[i], heap[smallest]
+        i = smallest
+    return size
 
 
 def python_twin(kernel: Any, *helpers: Any) -> Callable[..., Any]:

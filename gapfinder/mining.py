@@ -31,8 +31,10 @@ closed-pattern definition).
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
+from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any
@@ -41,8 +43,25 @@ import numba
 import numpy as np
 from numba import njit
 
-from gapfinder.compiled import grow, python_twin
+from gapfinder.compiled import (
+    append_pattern_row,
+    distinct_users,
+    grow,
+    grow_pattern_rows,
+    grow_rows,
+    heap_push,
+    python_twin,
+)
 from gapfinder.errors import ConfigError
+from gapfinder.gapped_mining import (
+    END,
+    GROUP_ENTRIES,
+    MAX_WINDOW,
+    window_dtype,
+    window_kernel,
+    window_kernel_python,
+    window_width,
+)
 
 __all__ = [
     "DEFAULT_MAX_PATTERNS",
@@ -178,29 +197,6 @@ def resolve_min_support(value: float, session_count: int) -> int:
 # --------------------------------------------------------------------------------------------
 
 
-@njit(cache=True, nogil=True)
-def _grow_rows(buffer: np.ndarray, needed: int) -> np.ndarray:  # pragma: no cover - compiled
-    size = buffer.shape[0]
-    while size < needed:
-        size *= 2
-    if size == buffer.shape[0]:
-        return buffer
-    bigger = np.empty((size, buffer.shape[1]), dtype=buffer.dtype)
-    bigger[: buffer.shape[0]] = buffer
-    return bigger
-
-
-@njit(cache=True, nogil=True)
-def _grow_output(  # pragma: no cover - compiled
-    out_items: np.ndarray, out_len: np.ndarray, out_support: np.ndarray, out_users: np.ndarray, needed: int
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """The kernel's four output buffers with room for ``needed`` rows (new event cells are -1)."""
-    old_rows = out_items.shape[0]
-    out_items = _grow_rows(out_items, needed)
-    out_items[old_rows:] = -1
-    return out_items, grow(out_len, needed), grow(out_support, needed), grow(out_users, needed)
-
-
 LOOK_AHEAD = 16  # projection entries read ahead in a scan, so that their memory lines are on the way
 REPLAY_ENTRIES = 1 << 22  # children's entries a counting pass keeps for the writing pass (12 bytes each)
 
@@ -298,37 +294,6 @@ def _replay(  # pragma: no cover - compiled
             out[write_at[x]] = recorded[r, 1]
             out_seq[write_at[x]] = recorded[r, 2]
             write_at[x] += 1
-
-
-@njit(cache=True, nogil=True)
-def _heap_push(heap: np.ndarray, size: int, value: int) -> int:  # pragma: no cover - compiled
-    """Keep the ``len(heap)`` largest values seen in a min-heap; returns the new size."""
-    capacity = heap.shape[0]
-    if size < capacity:
-        i = size
-        heap[i] = value
-        while i > 0:
-            parent = (i - 1) // 2
-            if heap[parent] <= heap[i]:
-                break
-            heap[parent], heap[i] = heap[i], heap[parent]
-            i = parent
-        return size + 1
-    if value <= heap[0]:
-        return size
-    heap[0] = value
-    i = 0
-    while True:
-        left, right, smallest = 2 * i + 1, 2 * i + 2, i
-        if left < size and heap[left] < heap[smallest]:
-            smallest = left
-        if right < size and heap[right] < heap[smallest]:
-            smallest = right
-        if smallest == i:
-            break
-        heap[smallest], heap[i] = heap[i], heap[smallest]
-        i = smallest
-    return size
 
 
 @njit(cache=True, nogil=True)
@@ -451,16 +416,11 @@ def _mine_kernel(  # pragma: no cover - compiled
             if is_check_level:
                 # Children one step past max_length: recorded only to decide closure.
                 for c in range(n):
-                    if rows >= out_len.shape[0]:
-                        out_items, out_len, out_support, out_users = _grow_output(
-                            out_items, out_len, out_support, out_users, rows + 1
-                        )
-                    for d in range(expand_length):
-                        out_items[rows, d] = pattern[d]
-                    out_items[rows, expand_length] = child_item[level, c]
-                    out_len[rows] = expand_length + 1
-                    out_support[rows] = child_support[level, c]
-                    out_users[rows] = -2
+                    pattern[expand_length] = child_item[level, c]
+                    out_items, out_len, out_support, out_users = append_pattern_row(
+                        out_items, out_len, out_support, out_users, rows, pattern, expand_length + 1,
+                        child_support[level, c], -2,
+                    )  # fmt: skip
                     rows += 1
                 n = 0
             if n > 0:
@@ -543,39 +503,16 @@ def _mine_kernel(  # pragma: no cover - compiled
             if rows >= max_rows:
                 stopped = True
                 break
-            if rows >= out_len.shape[0]:
-                out_items, out_len, out_support, out_users = _grow_output(
-                    out_items, out_len, out_support, out_users, rows + 1
-                )
-            for d in range(length):
-                out_items[rows, d] = pattern[d]
-            out_len[rows] = length
-            out_support[rows] = sup
             users = -1
             if user_count > 0:
-                users = 0
                 node_no += 1
-                previous = -1
-                for idx in range(lo, hi):
-                    s = arena_seq[idx]
-                    if s == previous:
-                        continue
-                    previous = s
-                    uid = sole_user[s]
-                    if uid >= 0:  # the common case: one user took the sequence
-                        if user_stamp[uid] != node_no:
-                            user_stamp[uid] = node_no
-                            users += 1
-                        continue
-                    for u in range(user_ptr[s], user_ptr[s + 1]):
-                        uid = user_ids[u]
-                        if user_stamp[uid] != node_no:
-                            user_stamp[uid] = node_no
-                            users += 1
-            out_users[rows] = users
+                users = distinct_users(arena_seq, lo, hi, sole_user, user_ptr, user_ids, user_stamp, node_no)
+            out_items, out_len, out_support, out_users = append_pattern_row(
+                out_items, out_len, out_support, out_users, rows, pattern, length, sup, users
+            )
             rows += 1
             if top_k > 0:
-                heap_size = _heap_push(heap, heap_size, sup)
+                heap_size = heap_push(heap, heap_size, sup)
         if length < max_length or (check_closure and length == max_length):
             level += 1
             expand_lo = lo
@@ -648,7 +585,9 @@ PYTHON_ENGINE_MAX_ROWS = 20_000  # patterns (beyond, the compiled kernel takes o
 ENGINES = ("auto", "compiled", "python")
 
 
-_mine_python = python_twin(_mine_kernel, grow, _grow_rows, _grow_output, _scan, _replay, _heap_push)
+_mine_python = python_twin(
+    _mine_kernel, grow, grow_rows, grow_pattern_rows, append_pattern_row, distinct_users, _scan, _replay, heap_push
+)
 _closed_flags_python = python_twin(_closed_flags, _row_hash)
 
 
@@ -692,19 +631,19 @@ def _first_event_ranges(db: SequenceDatabase, range_count: int) -> list[tuple[in
 
 
 def _mine_compiled(
-    db: SequenceDatabase, arguments: list[Any], *, top_k: int
+    db: SequenceDatabase, kernel: Any, arguments: list[Any], *, top_k: int
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, bool]:
-    """The compiled kernel over all first events, or, with several threads and no top-k (whose
+    """``kernel`` (compiled) over all first events, or, with several threads and no top-k (whose
     threshold depends on the order of the search), over ranges of first events at the same time
     (the kernel releases the GIL); rows are concatenated in range order, which is the order one
     search gives. ``max_rows`` holds for the total as it does for one search."""
     threads = numba.get_num_threads()
     if threads <= 1 or top_k > 0 or len(db.items) < PARALLEL_MIN_POSITIONS:
-        out_items, out_len, out_support, out_users, _rows, stopped = _mine_kernel(*arguments)
+        out_items, out_len, out_support, out_users, _rows, stopped = kernel(*arguments)
         return out_items, out_len, out_support, out_users, stopped
     ranges = _first_event_ranges(db, threads * FIRST_EVENT_RANGES_PER_THREAD)
     with ThreadPoolExecutor(max_workers=threads) as pool:
-        parts = list(pool.map(lambda r: _mine_kernel(*[*arguments[:-2], r[0], r[1]]), ranges))
+        parts = list(pool.map(lambda r: kernel(*[*arguments[:-2], r[0], r[1]]), ranges))
     max_rows = int(arguments[10])
     stopped = any(part[5] for part in parts) or sum(int(part[4]) for part in parts) > max_rows
     return (
@@ -728,7 +667,7 @@ def _sole_users(user_ptr: np.ndarray, user_ids: np.ndarray, sequence_count: int)
 
 def _run_kernel(
     db: SequenceDatabase,
-    cells: np.ndarray,
+    cells: Callable[[], np.ndarray],
     *,
     min_support: int,
     min_length: int,
@@ -739,15 +678,29 @@ def _run_kernel(
     max_rows: int,
     engine: str = "auto",
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Mine with the windowed kernel (``gapped_mining``) where the gap is bounded and the windows
+    are narrow enough, else with the general one; ``cells`` gives the general kernel's cells."""
     has_users = db.user_ptr is not None and db.user_ids is not None and len(db.user_ids) > 0
     user_ptr = db.user_ptr if has_users else np.zeros(db.sequence_count + 1, dtype=_I64)
     user_ids = db.user_ids if has_users else np.zeros(1, dtype=_I32)
     user_count = int(user_ids.max()) + 1 if has_users else 0  # type: ignore[union-attr]
+    item_count = max(db.item_count, 1)
+    width = window_width(max_length, max_gap, check_closure)
+    event_type = window_dtype(item_count)
+    windowed = max_gap >= 0 and width <= MAX_WINDOW and event_type is not None
+    if windowed:
+        data = np.ascontiguousarray(db.items, dtype=_I32)
+        tuning: tuple[Any, ...] = (np.full((1, width), END[event_type], dtype=event_type), GROUP_ENTRIES)
+        kernel: Any = window_kernel
+        python_kernel: Callable[..., Any] = window_kernel_python
+    else:
+        data, tuning = cells(), (REPLAY_ENTRIES,)
+        kernel, python_kernel = _mine_kernel, _mine_python
     arguments: list[Any] = [
-        cells,
+        data,
         np.ascontiguousarray(db.starts, dtype=_I64),
         np.ascontiguousarray(db.weights, dtype=_I64),
-        max(db.item_count, 1),
+        item_count,
         min_support,
         min_length,
         max_length,
@@ -759,21 +712,22 @@ def _run_kernel(
         np.ascontiguousarray(user_ids, dtype=_I32),
         _sole_users(user_ptr, user_ids, db.sequence_count),  # type: ignore[arg-type]
         user_count,
-        REPLAY_ENTRIES,
+        *tuning,
         0,
-        max(db.item_count, 1),
+        item_count,
     ]
     stopped = True
     if use_python(engine, len(db.items)):
         cap = max_rows if engine == "python" else min(max_rows, PYTHON_ENGINE_MAX_ROWS)
-        out_items, out_len, out_support, out_users, _rows, stopped = _mine_python(*arguments[:10], cap, *arguments[11:])
+        found = python_kernel(*arguments[:10], cap, *arguments[11:])
+        out_items, out_len, out_support, out_users, _rows, stopped = found
         if stopped and cap < max_rows:  # too much work for plain Python: let the compiled kernel finish it
             stopped = True
             engine = "compiled"
         elif not stopped:
             return out_items, out_len, out_support, out_users
     if engine != "python":
-        out_items, out_len, out_support, out_users, stopped = _mine_compiled(db, arguments, top_k=top_k)
+        out_items, out_len, out_support, out_users, stopped = _mine_compiled(db, kernel, arguments, top_k=top_k)
     if stopped:
         raise ConfigError(
             f"more than {max_rows:,} patterns qualify: raise --min-support, lower --max-length, "
@@ -858,7 +812,7 @@ def mine_patterns(
             f"{len(db.items):,} events in distinct session paths: the miner takes at most {MAX_POSITIONS:,}; "
             "mine a period or a sample of the sessions"
         )
-    cells = position_cells(db)
+    cells = functools.cache(lambda: position_cells(db))  # the general kernel's input, made once if needed
     run: dict[str, Any] = dict(
         min_length=min_length, max_length=max_length, max_gap=gap, max_rows=max_patterns, engine=engine
     )
@@ -890,7 +844,7 @@ def mine_patterns(
 
 def _top_k_rows(
     db: SequenceDatabase,
-    cells: np.ndarray,
+    cells: Callable[[], np.ndarray],
     *,
     top_k: int,
     min_support: int,

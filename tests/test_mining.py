@@ -69,17 +69,21 @@ def test_frequent_and_closed_equal_brute_force(
     max_gap: int | None,
     replay_entries: int,
 ) -> None:
-    """Also with no room (every writing pass scans again) or room for a few entries (some nodes
-    replay what their counting pass kept, some scan again)."""
+    """The general kernel (bounded gaps go to the windowed one unless its windows are made too
+    narrow), also with no room (every writing pass scans again) or room for a few entries (some
+    nodes replay what their counting pass kept, some scan again)."""
     weights = data.draw(st.lists(st.integers(1, 3), min_size=len(db), max_size=len(db)))
     database = SequenceDatabase.from_sequences(db, weights)
     options = {"min_support": min_support, "max_length": max_length, "max_gap": max_gap, "engine": engine}
+    max_window = mining.MAX_WINDOW
     try:
         mining.REPLAY_ENTRIES = replay_entries
+        mining.MAX_WINDOW = 0
         found = mine_patterns(database, **options)
         closed = mine_patterns(database, closed=True, **options)
     finally:
         mining.REPLAY_ENTRIES = REPLAY_ENTRIES
+        mining.MAX_WINDOW = max_window
     assert found.as_dict() == brute_force(db, weights, min_support, max_length, max_gap)
     assert closed.as_dict() == brute_force_closed(db, weights, min_support, max_length, max_gap)
 
