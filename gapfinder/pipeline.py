@@ -28,7 +28,7 @@ from gapfinder.report.markdown import percent as _pct
 from gapfinder.safe_io import check_target, write_files
 from gapfinder.suite import SuiteOptions, load_suite, read_suite
 from gapfinder.usage_profile import ProfileOptions, profile_telemetry
-from gapfinder.workspace import Workspace, memory_limit_share
+from gapfinder.workspace import StageRecord, Workspace, memory_limit_share, stage_clock
 
 __all__ = ["PipelineResult", "render_summary_markdown", "run_pipeline"]
 
@@ -151,6 +151,7 @@ def _run_into(
         say("mining journeys")
         mined = mine_workspace(ws, mining or MiningOptions())
         say("ranking gaps")
+        ranking_began = stage_clock()
         plan_options = plan or PlanOptions(min_users=min_users)
         wanted = GapOptions(top=top, min_users=min_users, tz=plan_options.tz)
         for_plan = plan_gap_options(plan_options)
@@ -166,6 +167,21 @@ def _run_into(
             found = None
             gaps = find_gaps(ws, wanted)
         unused = unused_tests(ws, min_users=min_users)
+        # Gap ranking writes no table; its row in `runs` says how long it took.
+        ranking = StageRecord(
+            "gaps",
+            inputs=[str(workspace)],
+            parameters={
+                "top": top,
+                "min_users": min_users,
+                "pool": wanted.pool_size(),
+                "shared_with_plan": bool(shared),
+            },
+            row_counts={"gaps": len(gaps["gaps"]), "unused_tests": len(unused["unused"])},
+            began=ranking_began,
+        )
+        with ws.stage(ranking):
+            pass
         say("planning scenarios")
         planned = make_plan(ws, plan_options, gaps=found)
     files: list[str] = []

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+import duckdb
 from click.testing import CliRunner
 
 from gapfinder.cli import cli
@@ -54,6 +55,13 @@ def test_run_writes_everything(tmp_path: Path) -> None:
     assert "| in the plan |" in summary and "planned: scenario" in summary
     assert (out / "pytest" / "gapfinder_steps.py").exists() and list((out / "gherkin").glob("*.feature"))
     assert json.loads((out / "gapfinder_plan.json").read_text())["budget"] == 5
+    # every stage's wall time is in `runs`, gap ranking (which writes no table) included
+    con = duckdb.connect(str(out / "workspace.duckdb"), read_only=True)
+    try:
+        stages = [row[0] for row in con.execute("SELECT stage FROM runs WHERE seconds > 0 ORDER BY run_id").fetchall()]
+    finally:
+        con.close()
+    assert stages == ["profile", "suite", "patterns", "gaps", "plan"]
 
 
 def test_run_with_a_missing_test_source_fails_before_writing(tmp_path: Path) -> None:
