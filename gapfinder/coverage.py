@@ -186,8 +186,14 @@ def load_test_paths(ws: Workspace) -> TestPaths:
 
 
 def load_field_items(ws: Workspace) -> FieldItems:
-    """kpaths (k = 1..K) and, when mined, the stored patterns with their mining gap bound."""
+    """kpaths (k = 1..K) and, when mined, the stored patterns with their mining gap bound; kept on
+    ``ws`` until profile or mining runs again (`run` reads them for gap ranking and the plan), so
+    their arrays are read-only."""
     ws.require("kpaths", "features", hint="run `gapfinder profile TELEMETRY -w ...` first")
+    return ws.derived("field_items", ("profile", "patterns"), lambda: _read_field_items(ws))
+
+
+def _read_field_items(ws: Workspace) -> FieldItems:
     con = ws.con
     bits = id_bits(len(feature_names(con)))
     columns = fetch_numpy(con, "list_kpath_items")
@@ -213,6 +219,10 @@ def load_field_items(ws: Workspace) -> FieldItems:
         items.pattern_sessions = np.array([r[1] for r in rows], dtype=np.int64)
         items.pattern_users = np.array([r[2] for r in rows], dtype=np.int64)
         items.pattern_gap = json.loads(meta[0]).get("max_gap") if meta else None
+    for array in (items.k, items.code, items.occurrences, items.sessions, items.users):
+        array.flags.writeable = False
+    items.pattern_sessions.flags.writeable = False
+    items.pattern_users.flags.writeable = False
     return items
 
 

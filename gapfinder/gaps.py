@@ -51,7 +51,7 @@ from gapfinder.matching import (
 )
 from gapfinder.mining import use_python
 from gapfinder.paths import feature_names, hidden_full_path_ids
-from gapfinder.patterns import load_sequences, profile_included_automated
+from gapfinder.patterns import profile_included_automated, workspace_sequences
 from gapfinder.periods import Period, split_in_halves, time_zone
 from gapfinder.privacy import DEFAULT_MIN_USERS
 from gapfinder.session_sets import MaskedSessionSets, SessionSet
@@ -641,7 +641,7 @@ def find_gaps(ws: Workspace, options: GapOptions | None = None) -> dict[str, Any
         result["gaps"] = []
         return result
 
-    db = load_sequences(con, with_users=False)
+    db = workspace_sequences(ws, with_users=False)
     totals = {
         int(r["event_id"]): (int(r["occurrences"]), int(r["errors"]))
         for r in fetch_dicts(con, "list_event_error_totals", include_automated=include_automated)
@@ -759,7 +759,7 @@ def unused_tests(
     tests: TestPaths = load_test_paths(ws)
     con = ws.con
     names = feature_names(con)
-    db = load_sequences(con, with_users=False)
+    db = workspace_sequences(ws, with_users=False)
     total = db.session_count
     journeys = [tuple(e for e in framed[1:-1] if e >= 0) for framed in tests.framed]
     runnable = [i for i, j in enumerate(journeys) if j]

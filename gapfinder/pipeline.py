@@ -182,6 +182,7 @@ def _run_into(
         )
         with ws.stage(ranking):
             pass
+        ws.forget_derived("sequences")  # the plan reads the k-paths kept for gap ranking, not the paths
         say("planning scenarios")
         planned = make_plan(ws, plan_options, gaps=found)
     files: list[str] = []

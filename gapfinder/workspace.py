@@ -13,17 +13,19 @@ import os
 import sys
 import tempfile
 import time
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 import duckdb
 
 from gapfinder import __version__
 from gapfinder.errors import ConfigError, GapfinderError, InputError, describe_database_error
 from gapfinder.sql import first_row, run
+
+T = TypeVar("T")
 
 __all__ = [
     "DEFAULT_WORKSPACE",
@@ -188,6 +190,7 @@ class Workspace:
     ) -> None:
         self.path = Path(path)
         self.is_new = not self.path.exists()
+        self._derived: dict[str, tuple[tuple[Any, ...], Any]] = {}
         if read_only and self.is_new:
             raise InputError(f"workspace {self.path} does not exist: run `gapfinder profile ... -w {self.path}` first")
         if self.path.parent and not self.path.parent.exists():
@@ -252,7 +255,28 @@ class Workspace:
         run(self.con, "upsert_meta", key="schema_version", value=str(SCHEMA_VERSION))
 
     def close(self) -> None:
+        self._derived.clear()
         self.con.close()
+
+    def derived(self, name: str, stages: tuple[str, ...], make: Callable[[], T]) -> T:
+        """``make()``, kept on this object while none of ``stages`` has run again since.
+
+        For arrays several stages read from the same tables (`run` loads the distinct paths for
+        mining, gap ranking and unused tests, and the k-paths for gap ranking and the plan); a
+        stage that rewrites those tables records a newer run, which makes the kept value stale."""
+        version = tuple(first_row(run(self.con, "read_last_run_ids", stages=list(stages)))[0] or [])
+        kept = self._derived.get(name)
+        if kept is not None and kept[0] == version:
+            return kept[1]
+        self._derived.pop(name, None)  # let the stale value go before making the new one
+        value = make()
+        self._derived[name] = (version, value)
+        return value
+
+    def forget_derived(self, *names: str) -> None:
+        """Let values kept by ``derived`` go (all of them when no name is given)."""
+        for name in names or tuple(self._derived):
+            self._derived.pop(name, None)
 
     def release_cached_memory(self) -> None:
         """Let DuckDB hand back what its buffer pool keeps cached (``release_cached_memory``).

@@ -108,9 +108,9 @@ def test_runs_record_the_whole_stage(profiled: Path, monkeypatch: pytest.MonkeyP
 
     slow = patterns.load_sequences
 
-    def load_slowly(con: duckdb.DuckDBPyConnection) -> object:
+    def load_slowly(con: duckdb.DuckDBPyConnection, **options: bool) -> object:
         time.sleep(0.3)
-        return slow(con)
+        return slow(con, **options)
 
     monkeypatch.setattr(patterns, "load_sequences", load_slowly)
     with Workspace(profiled) as ws:
@@ -142,3 +142,34 @@ def test_releasing_cached_memory_keeps_the_limit_and_the_data(tmp_path: Path) ->
         ws.release_cached_memory()
         assert ws.con.execute("SELECT current_setting('memory_limit')").fetchall() == before
         assert ws.con.execute("SELECT sum(x) FROM t").fetchall() == [(1999999 * 2000000 // 2,)]
+
+
+def test_derived_values_are_kept_until_their_stages_run_again(profiled: Path) -> None:
+    """`run` reads the distinct paths and the k-paths once for several stages; a new run of a stage
+    they come from (here a patterns run) makes the kept value stale, and it is made again."""
+    from gapfinder import patterns
+    from gapfinder.coverage import load_field_items
+    from gapfinder.workspace import Workspace
+
+    with Workspace(profiled) as ws:
+        made: list[int] = []
+
+        def make() -> list[int]:
+            made.append(1)
+            return [len(made)]
+
+        first = ws.derived("probe", ("profile", "patterns"), make)
+        assert ws.derived("probe", ("profile", "patterns"), make) is first and len(made) == 1
+        items = load_field_items(ws)
+        assert load_field_items(ws) is items
+        with pytest.raises(ValueError, match="read-only"):
+            items.sessions[0] = 0  # kept for several stages: nobody may change it in place
+        with_users = patterns.workspace_sequences(ws)
+        without = patterns.workspace_sequences(ws, with_users=False)
+        assert without.items is with_users.items and without.user_ptr is None and with_users.user_ptr is not None
+        patterns.mine_workspace(ws, patterns.MiningOptions(min_support=0.01))
+        assert ws.derived("probe", ("profile", "patterns"), make) == [2]  # patterns ran again
+        assert load_field_items(ws) is not items
+        assert patterns.workspace_sequences(ws) is with_users  # mining does not touch the paths
+        ws.forget_derived()
+        assert patterns.workspace_sequences(ws) is not with_users
