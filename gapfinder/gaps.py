@@ -280,11 +280,9 @@ class _FamilyTest:
 
     def union_total(self, members: list[int]) -> int:
         """The sessions of the paths in any of the sets ``members`` (a path counted once)."""
-        seen = np.zeros(self.size, dtype=bool)
         if self.masked is not None:
-            for n in members:
-                seen |= self.masked.holds(n)
-            return int(self.masked.weights[seen].sum())
+            return self.masked.union_total(members)
+        seen = np.zeros(self.size, dtype=bool)
         total = 0
         for n in members:
             ids, weights = self.sets[n]

@@ -11,8 +11,10 @@ from __future__ import annotations
 
 import bisect
 from collections.abc import Iterator, Mapping
+from typing import Any
 
 import numpy as np
+from numba import njit
 
 from gapfinder.gap_evidence import bit_weights, masked_sequences
 
@@ -68,6 +70,33 @@ class MaskedSessionSets(Mapping[int, SessionSet]):
         self._bit(n)
         return int(self._totals[n])
 
+    def union_total(self, members: list[int]) -> int:
+        """The sessions of the paths in any of the sets ``members`` (a path counted once): one pass
+        per block over its masks, with the members' bits of that block."""
+        wanted: dict[int, list[int]] = {}
+        for n in members:
+            self._bit(n)
+            block = bisect.bisect_right(self._firsts, n) - 1
+            bits = wanted.setdefault(block, [0, 0])
+            place = n - self._firsts[block]
+            bits[place // 64] |= 1 << (place % 64)
+        seen = np.zeros(self.path_count, dtype=np.bool_)
+        total = 0
+        for block, (low_bits, high_bits) in sorted(wanted.items()):
+            low, high = self._words[block]
+            other = high if high is not None else low
+            total += int(
+                _add_held(
+                    low,
+                    other,
+                    low.dtype.type(low_bits),
+                    other.dtype.type(high_bits if high is not None else 0),
+                    seen,
+                    self.weights,
+                )
+            )
+        return total
+
     def holds(self, n: int) -> np.ndarray:
         """A boolean per path: whether it is in set n."""
         words, bit = self._bit(n)
@@ -80,6 +109,19 @@ class MaskedSessionSets(Mapping[int, SessionSet]):
 
     def __iter__(self) -> Iterator[int]:
         return iter(range(self.count))
+
+
+@njit(cache=True, nogil=True)
+def _add_held(  # pragma: no cover - compiled
+    low: np.ndarray, high: np.ndarray, low_bits: Any, high_bits: Any, seen: np.ndarray, weights: np.ndarray
+) -> int:
+    """Σ weights[p] over the paths not yet ``seen`` whose masks have any of the bits; marks them seen."""
+    total = 0
+    for p in range(low.shape[0]):
+        if not seen[p] and ((low[p] & low_bits) or (high[p] & high_bits)):
+            seen[p] = True
+            total += weights[p]
+    return total
 
 
 def session_sets(which: np.ndarray, sequence: np.ndarray, weights: np.ndarray, count: int) -> dict[int, SessionSet]:

@@ -249,6 +249,11 @@ def test_masked_session_sets_list_the_pairs_of_every_block() -> None:
         assert got_weights.tolist() == weights[ids].tolist()
     with pytest.raises(KeyError):
         sets[first]
+    # unions read from the bits in place equal those of the listed paths
+    for _ in range(50):
+        members = [int(x) for x in rng.choice(first, size=int(rng.integers(1, 6)), replace=False)]
+        union = sorted(set().union(*(expected[m] for m in members)))
+        assert sets.union_total(members) == int(weights[union].sum())
 
 
 def test_evidence_in_blocks_of_any_size_equals_one_block(
