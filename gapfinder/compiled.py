@@ -25,6 +25,7 @@ __all__ = [
     "grow_rows",
     "heap_push",
     "python_twin",
+    "support_threshold",
 ]
 
 # Fibonacci hashing (common practice; Knuth, TAOCP vol. 3, 6.4, cited from memory): the top bits of
@@ -128,6 +129,15 @@ def distinct_users(  # pragma: no cover - compiled
                 user_stamp[uid] = mark
                 users += 1
     return users
+
+
+@njit(cache=True, nogil=True)
+def support_threshold(min_support: int, top_k: int, heap: np.ndarray, heap_size: int) -> int:  # pragma: no cover
+    """The support a pattern needs now: ``min_support``, or with top-k and a full heap of the k best
+    supports, the smallest of them when it is higher."""
+    if top_k > 0 and heap_size == top_k and heap[0] > min_support:
+        return int(heap[0])
+    return min_support
 
 
 @njit(cache=True, nogil=True)

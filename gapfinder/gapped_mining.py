@@ -35,6 +35,7 @@ from gapfinder.compiled import (
     grow_rows,
     heap_push,
     python_twin,
+    support_threshold,
 )
 
 __all__ = [
@@ -253,9 +254,7 @@ def window_kernel(  # pragma: no cover - compiled
         if expand_hi >= 0:
             # Expand the current node: count its children (level `level`); their entries are
             # written group by group as the search reaches them.
-            threshold = min_support
-            if top_k > 0 and heap_size == top_k and heap[0] > threshold:
-                threshold = heap[0]
+            threshold = support_threshold(min_support, top_k, heap, heap_size)
             if expand_length == 0:
                 visit = _root_scan(
                     items, starts, weights, first_lo, first_hi, end_mark, stamp, visit, support,
@@ -309,9 +308,7 @@ def window_kernel(  # pragma: no cover - compiled
         c = child_next[level]
         child_next[level] += 1
         sup = child_support[level, c]
-        threshold = min_support
-        if top_k > 0 and heap_size == top_k and heap[0] > threshold:
-            threshold = heap[0]
+        threshold = support_threshold(min_support, top_k, heap, heap_size)
         if sup < threshold:
             if top_k > 0:
                 child_next[level] = child_total[level]  # sorted: the rest are smaller still
@@ -387,4 +384,5 @@ window_kernel_python = python_twin(
     _root_scan,
     _window_scan,
     heap_push,
+    support_threshold,
 )

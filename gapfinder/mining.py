@@ -51,6 +51,7 @@ from gapfinder.compiled import (
     grow_rows,
     heap_push,
     python_twin,
+    support_threshold,
 )
 from gapfinder.errors import ConfigError
 from gapfinder.gapped_mining import (
@@ -381,9 +382,7 @@ def _mine_kernel(  # pragma: no cover - compiled
     while True:
         if expand_hi >= 0:
             # Expand the current node: its children go to level `level`.
-            threshold = min_support
-            if top_k > 0 and heap_size == top_k and heap[0] > threshold:
-                threshold = heap[0]
+            threshold = support_threshold(min_support, top_k, heap, heap_size)
             visit, kept = _scan(
                 arena,
                 expand_lo,
@@ -488,9 +487,7 @@ def _mine_kernel(  # pragma: no cover - compiled
         c = child_next[level]
         child_next[level] += 1
         sup = child_support[level, c]
-        threshold = min_support
-        if top_k > 0 and heap_size == top_k and heap[0] > threshold:
-            threshold = heap[0]
+        threshold = support_threshold(min_support, top_k, heap, heap_size)
         if sup < threshold:
             if top_k > 0:
                 child_next[level] = child_total[level]  # sorted: the rest are smaller still
@@ -586,7 +583,16 @@ ENGINES = ("auto", "compiled", "python")
 
 
 _mine_python = python_twin(
-    _mine_kernel, grow, grow_rows, grow_pattern_rows, append_pattern_row, distinct_users, _scan, _replay, heap_push
+    _mine_kernel,
+    grow,
+    grow_rows,
+    grow_pattern_rows,
+    append_pattern_row,
+    distinct_users,
+    _scan,
+    _replay,
+    heap_push,
+    support_threshold,
 )
 _closed_flags_python = python_twin(_closed_flags, _row_hash)
 
